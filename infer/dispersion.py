@@ -1,0 +1,398 @@
+"""Dimensionless dispersion relation of the magnetized, diffusive, rotating thin sheet.
+
+Units (physics note, section 4): surface density Sigma, sound speed c_s, length
+L0 = c_s^2 / (2 pi G Sigma), time t0 = c_s / (2 pi G Sigma). With the
+dimensionless wavenumber ``k`` (= k L0) the growth rate ``g`` (= gamma t0)
+solves the cubic
+
+    g^3 + theta g^2 + (D + Lambda) g + theta D = 0,
+
+    D      = kappa^2 + C^2 k^2 - k
+    Lambda = k / mu^2 + vA^2 k^2,          vA^2 = Z / mu^2
+    theta  = eta (k / Z + k^2)
+
+with Z = 2 / (1 + P), C^2 = (1 + 3P) / (1 + P)^2 and P = 2 P_ext / (pi G Sigma^2).
+
+Everything here is plain numpy on float arrays that broadcast against each
+other, so one call evaluates a whole ensemble of walkers. No Python loop runs
+over parameter sets; the only loops are fixed-length iterations (Newton steps,
+golden-section steps) applied to all sets at once.
+"""
+
+from __future__ import annotations
+
+from dataclasses import dataclass
+
+import numpy as np
+
+__all__ = [
+    "SheetParams",
+    "sheet_params",
+    "coefficients",
+    "growth_rate",
+    "unstable_band",
+    "FastestMode",
+    "fastest_mode",
+    "thermal_fastest_k",
+]
+
+_GOLDEN = 0.5 * (3.0 - np.sqrt(5.0))   # 0.381966...
+_N_GRID = 8                           # coarse log-k scan that picks the start
+_N_GOLDEN = 50                         # golden-section steps, fallback only (0.618^50 ~ 3e-11)
+_N_POLISH = 12                         # cap on Newton steps in (g, k)
+_N_NEWTON = 60                         # hard cap on Newton steps for the cubic root
+_LOG_K_SPAN_NO_ROTATION = np.log(1e6)  # lower end of the band when kappa = 0
+
+
+@dataclass(frozen=True)
+class SheetParams:
+    """Dimensionless parameters of the sheet, one entry per parameter set.
+
+    Attributes
+    ----------
+    inv_mu2 : ndarray
+        1 / mu0^2, mu0 the mass-to-flux ratio in units of the critical value
+        (0 for a field-free sheet).
+    p_ext : ndarray
+        P = 2 P_ext / (pi G Sigma^2), external over self-gravitational pressure.
+    kappa : ndarray
+        Epicyclic frequency times t0 (Toomre Q = 2 kappa).
+    eta : ndarray
+        (eta_AD + eta_OD) t0 / L0^2, the total field-slip diffusivity.
+    """
+
+    inv_mu2: np.ndarray
+    p_ext: np.ndarray
+    kappa: np.ndarray
+    eta: np.ndarray
+
+    @property
+    def z0(self) -> np.ndarray:
+        """Half-thickness Z0 / L0 = 2 / (1 + P)."""
+        return 2.0 / (1.0 + self.p_ext)
+
+    @property
+    def c2(self) -> np.ndarray:
+        """Effective sound speed squared, C_eff^2 / c_s^2 = (1 + 3P) / (1 + P)^2."""
+        return (1.0 + 3.0 * self.p_ext) / (1.0 + self.p_ext) ** 2
+
+    @property
+    def va2(self) -> np.ndarray:
+        """Alfven speed squared at the midplane, v_A^2 / c_s^2 = Z0 / mu0^2."""
+        return self.z0 * self.inv_mu2
+
+
+def sheet_params(*, inv_mu2, p_ext=0.0, kappa=0.0, eta=0.0) -> SheetParams:
+    """Broadcast the four dimensionless inputs to one common shape.
+
+    Parameters
+    ----------
+    inv_mu2, p_ext, kappa, eta : array_like
+        See :class:`SheetParams`; all must be finite and non-negative.
+    """
+    arrays = np.broadcast_arrays(
+        *(np.asarray(x, dtype=float) for x in (inv_mu2, p_ext, kappa, eta))
+    )
+    return SheetParams(*(np.array(a, dtype=float) for a in arrays))
+
+
+def coefficients(k, p: SheetParams):
+    """Return (D, Lambda, theta) at dimensionless wavenumber ``k`` (k > 0).
+
+    ``k`` broadcasts against the parameter arrays.
+    """
+    k = np.asarray(k, dtype=float)
+    z0 = p.z0
+    d = p.kappa**2 + p.c2 * k**2 - k
+    lam = k * p.inv_mu2 + p.va2 * k**2
+    theta = p.eta * (k / z0 + k**2)
+    return d, lam, theta
+
+
+def _cubic_root(d, lam, theta):
+    """Largest real growth rate of g^3 + theta g^2 + (D + Lambda) g + theta D = 0.
+
+    Returns 0 where no mode grows. Exact in the two limits: theta = 0 gives
+    g = sqrt(-(D + Lambda)); otherwise the unique positive root when D < 0
+    (one sign change, Descartes), found by Newton's method from the smaller of
+    two upper bounds, sqrt(-D) and the positive root of the quadratic part
+    theta g^2 + (D + Lambda) g + theta D (at which the cubic equals g^3 > 0).
+    The cubic is convex for g > 0, so Newton from above decreases monotonically
+    to the root. Only the entries that have not converged are iterated.
+    """
+    d, lam, theta = np.broadcast_arrays(d, lam, theta)
+    shape = d.shape
+    d = d.reshape(-1)
+    lam = lam.reshape(-1)
+    theta = theta.reshape(-1)
+    b = d + lam
+    out = np.sqrt(np.maximum(-b, 0.0))          # flux-frozen limit
+    diffusive = theta > 0.0
+    out[diffusive] = 0.0
+    idx = np.flatnonzero(diffusive & (d < 0.0))
+    if idx.size:
+        dd, bb, tt = d[idx], b[idx], theta[idx]
+        with np.errstate(invalid="ignore", divide="ignore", over="ignore"):
+            g1 = np.sqrt(-dd)
+            s = np.sqrt(bb * bb - 4.0 * tt * tt * dd)
+            gq = np.where(bb > 0.0, -2.0 * tt * dd / (s + bb), (s - bb) / (2.0 * tt))
+        g = np.where(np.isfinite(gq), np.fmin(g1, gq), g1)
+        # a few Halley steps on all entries (cubic convergence; f'' > 0 and
+        # f >= 0 above the root), then only on those still moving
+        active = None
+        for it in range(_N_NEWTON):
+            if active is None:
+                ga, ta, ba, da = g, tt, bb, dd
+            else:
+                ga, ta, ba, da = g[active], tt[active], bb[active], dd[active]
+            g2 = ga * ga
+            f = g2 * ga + ta * g2 + ba * ga + ta * da
+            fp = 3.0 * g2 + 2.0 * ta * ga + ba
+            fpp = 6.0 * ga + 2.0 * ta
+            with np.errstate(invalid="ignore", divide="ignore", over="ignore"):
+                step = 2.0 * f * fp / (2.0 * fp * fp - f * fpp)
+            step = np.where(np.isfinite(step) & (fp > 0.0), step, 0.0)
+            g_new = np.maximum(ga - step, 0.0)
+            # from above the iterates decrease; a non-positive or round-off step means done
+            keep = step > 1e-15 * ga
+            if active is None:
+                g = g_new
+                if it >= 2:
+                    active = np.flatnonzero(keep)
+            else:
+                g[active] = g_new
+                active = active[keep]
+            if active is not None and active.size == 0:
+                break
+        out[idx] = g
+    return out.reshape(shape)
+
+
+def growth_rate(k, p: SheetParams) -> np.ndarray:
+    """Dimensionless growth rate gamma t0 of the fastest-growing branch at ``k``.
+
+    Parameters
+    ----------
+    k : array_like
+        Dimensionless wavenumber k L0 (> 0), broadcasting against ``p``.
+    p : SheetParams
+
+    Returns
+    -------
+    ndarray
+        gamma t0 >= 0 (0 where no mode grows).
+    """
+    d, lam, theta = coefficients(k, p)
+    return _cubic_root(d, lam, theta)
+
+
+def unstable_band(p: SheetParams):
+    """Closed-form band of wavenumbers that grow, and whether it exists.
+
+    With diffusion (eta > 0) the band is D(k) < 0; in flux freezing (eta = 0)
+    it is D + Lambda < 0. Both are quadratics a k^2 - b k + kappa^2 < 0.
+
+    Returns
+    -------
+    k_lo, k_hi : ndarray
+        Band edges (k_lo = 0 without rotation); NaN where no band.
+    exists : ndarray of bool
+    """
+    ideal = p.eta <= 0.0
+    a = np.where(ideal, p.c2 + p.va2, p.c2)
+    bb = np.where(ideal, 1.0 - p.inv_mu2, 1.0)
+    disc = bb * bb - 4.0 * a * p.kappa**2
+    exists = (bb > 0.0) & (disc > 0.0)
+    with np.errstate(invalid="ignore", divide="ignore"):
+        root = np.sqrt(np.where(exists, disc, np.nan))
+        k_hi = (bb + root) / (2.0 * a)
+        k_lo = 2.0 * p.kappa**2 / (bb + root)
+    return k_lo, k_hi, exists
+
+
+def thermal_fastest_k(p: SheetParams) -> np.ndarray:
+    """Fastest wavenumber of the field-free, non-rotating sheet, k = 1 / (2 C^2)."""
+    return 0.5 / p.c2
+
+
+@dataclass(frozen=True)
+class FastestMode:
+    """Fastest-growing mode, dimensionless; NaN where nothing grows.
+
+    Attributes
+    ----------
+    k : ndarray
+        Wavenumber k_m L0.
+    growth_rate : ndarray
+        gamma_m t0.
+    unstable : ndarray of bool
+    k_lo, k_hi : ndarray
+        Edges of the unstable band.
+    """
+
+    k: np.ndarray
+    growth_rate: np.ndarray
+    unstable: np.ndarray
+    k_lo: np.ndarray
+    k_hi: np.ndarray
+
+
+def _flat(p: SheetParams, shape) -> SheetParams:
+    return SheetParams(*(np.broadcast_to(a, shape).reshape(-1) for a in
+                         (p.inv_mu2, p.p_ext, p.kappa, p.eta)))
+
+
+def _take(p: SheetParams, idx) -> SheetParams:
+    return SheetParams(p.inv_mu2[idx], p.p_ext[idx], p.kappa[idx], p.eta[idx])
+
+
+def _polish(k, g, p: SheetParams, k_min, k_max):
+    """Newton's method on (g, k) for p(g, k) = 0 and dp/dk = 0 (so dg/dk = 0).
+
+    Implicit differentiation of the cubic p(g, k) = 0 gives dg/dk = -p_k / p_g,
+    so the fastest mode is where p_k vanishes on the root. Steps are clipped to
+    [k_min, k_max]; only entries still moving are iterated. Returns the
+    polished k, g and a flag of clean convergence.
+    """
+    k = k.copy()
+    g = g.copy()
+    ok = np.zeros(k.shape, dtype=bool)
+    iz_all = 1.0 / p.z0
+    c2_all = p.c2
+    va2_all = p.va2
+    active = np.arange(k.size)
+    for _ in range(_N_POLISH):
+        kk, gg = k[active], g[active]
+        m, vv, eta = p.inv_mu2[active], va2_all[active], p.eta[active]
+        kap2, c2, iz = p.kappa[active] ** 2, c2_all[active], iz_all[active]
+        with np.errstate(invalid="ignore", divide="ignore", over="ignore"):
+            th = eta * (kk * iz + kk * kk)
+            th_k = eta * (iz + 2.0 * kk)
+            d = kap2 + c2 * kk * kk - kk
+            d_k = 2.0 * c2 * kk - 1.0
+            b = d + m * kk + vv * kk * kk
+            b_k = d_k + m + 2.0 * vv * kk
+            g2 = gg * gg
+            f = g2 * gg + th * g2 + b * gg + th * d
+            f_g = 3.0 * g2 + 2.0 * th * gg + b
+            f_k = th_k * g2 + b_k * gg + th_k * d + th * d_k
+            f_kg = 2.0 * th_k * gg + b_k
+            f_kk = (2.0 * eta * g2 + 2.0 * (c2 + vv) * gg + 2.0 * eta * d
+                    + 2.0 * th_k * d_k + 2.0 * c2 * th)
+            det = f_g * f_kk - f_k * f_kg
+            dg = -(f * f_kk - f_k * f_k) / det
+            dk = -(f_g * f_k - f_kg * f) / det
+        good = np.isfinite(dg) & np.isfinite(dk)
+        dg = np.where(good, dg, 0.0)
+        dk = np.where(good, dk, 0.0)
+        k[active] = np.clip(kk + dk, k_min[active], k_max[active])
+        g[active] = np.maximum(gg + dg, 0.0)
+        done = good & (np.abs(dk) <= 1e-12 * kk) & (np.abs(dg) <= 1e-12 * np.maximum(gg, 1e-300))
+        ok[active] = done
+        active = active[~done]
+        if active.size == 0:
+            break
+    return k, g, ok
+
+
+def _golden(a, b, p: SheetParams):
+    """Golden-section maximisation of the growth rate over log k in [a, b]."""
+
+    def f(x):
+        return growth_rate(np.exp(x), p)
+
+    x1 = a + _GOLDEN * (b - a)
+    x2 = b - _GOLDEN * (b - a)
+    f1, f2 = f(x1), f(x2)
+    for _ in range(_N_GOLDEN):
+        left = f1 >= f2
+        b = np.where(left, x2, b)
+        a = np.where(left, a, x1)
+        x_new = np.where(left, a + _GOLDEN * (b - a), b - _GOLDEN * (b - a))
+        f_new = f(x_new)
+        x2, f2, x1, f1 = (np.where(left, x1, x_new), np.where(left, f1, f_new),
+                          np.where(left, x_new, x2), np.where(left, f_new, f2))
+    x = np.where(f1 >= f2, x1, x2)
+    return np.exp(x), np.maximum(f1, f2)
+
+
+def fastest_mode(p: SheetParams) -> FastestMode:
+    """Locate the maximum of the growth rate over the unstable band.
+
+    1. A scan of the growth rate on ``_N_GRID`` logarithmically spaced
+       wavenumbers across the closed-form band, plus two analytic candidates
+       (the flux-frozen peak and the field-free peak), picks the best start;
+       this guards against a second local maximum near the critical
+       mass-to-flux ratio.
+    2. Newton's method on (g, k) for p = 0, dp/dk = 0 polishes it
+       (quadratic convergence, implicit differentiation of the cubic).
+    3. Where that fails to converge inside the bracket of neighbouring grid
+       cells, a golden-section search in log k over that bracket is used.
+
+    All parameter sets advance together; no Python loop over sets.
+
+    Parameters
+    ----------
+    p : SheetParams
+        Any shape.
+
+    Returns
+    -------
+    FastestMode
+        Arrays of the shape of ``p``.
+    """
+    k_lo, k_hi, exists = unstable_band(p)
+    shape = k_lo.shape
+    fl = _flat(p, shape)
+    ex = exists.reshape(-1)
+    out_k = np.full(ex.shape, np.nan)
+    out_g = np.full(ex.shape, np.nan)
+    idx = np.flatnonzero(ex)
+    if idx.size:
+        q = _take(fl, idx)
+        hi = np.log(k_hi.reshape(-1)[idx])
+        klo = k_lo.reshape(-1)[idx]
+        lo = np.where(klo > 0.0, np.log(np.where(klo > 0.0, klo, 1.0)), hi - _LOG_K_SPAN_NO_ROTATION)
+        lo = np.maximum(lo, hi - _LOG_K_SPAN_NO_ROTATION)
+        frac = (np.arange(_N_GRID) + 0.5) / _N_GRID
+        cell = (hi - lo) / _N_GRID
+        # analytic candidates: flux-frozen peak and decoupled (field-free) peak
+        bb = 1.0 - q.inv_mu2
+        with np.errstate(invalid="ignore", divide="ignore"):
+            k_ideal = np.log(np.where(bb > 0.0, bb / (2.0 * (q.c2 + q.va2)), np.nan))
+        k_free = np.log(0.5 / q.c2)
+        cand = np.concatenate(
+            [lo[:, None] + (hi - lo)[:, None] * frac[None, :],
+             np.clip(np.stack([k_ideal, k_free], axis=1), lo[:, None], hi[:, None])],
+            axis=1,
+        )
+        cand = np.where(np.isfinite(cand), cand, lo[:, None] + 0.5 * (hi - lo)[:, None])
+        qq = SheetParams(*(a[:, None] for a in (q.inv_mu2, q.p_ext, q.kappa, q.eta)))
+        g_c = growth_rate(np.exp(cand), qq)
+        best = np.argmax(g_c, axis=1)
+        rows = np.arange(idx.size)
+        x0 = cand[rows, best]
+        g0 = g_c[rows, best]
+        a = np.maximum(x0 - cell, lo)
+        b = np.minimum(x0 + cell, hi)
+        k1, g1, ok = _polish(np.exp(x0), g0, q, np.exp(a), np.exp(b))
+        # accept the polished point only if it is a clean interior maximum
+        g1 = np.where(ok, growth_rate(k1, q), 0.0)
+        ok &= (k1 > np.exp(a)) & (k1 < np.exp(b)) & (g1 >= g0)
+        bad = np.flatnonzero(~ok)
+        if bad.size:
+            kb, gb = _golden(a[bad], b[bad], _take(q, bad))
+            better = gb >= g0[bad]
+            k1[bad] = np.where(better, kb, np.exp(x0[bad]))
+            g1[bad] = np.where(better, gb, g0[bad])
+        grows = g1 > 0.0
+        out_k[idx] = np.where(grows, k1, np.nan)
+        out_g[idx] = np.where(grows, g1, np.nan)
+    unstable = np.isfinite(out_g)
+    return FastestMode(
+        k=out_k.reshape(shape),
+        growth_rate=out_g.reshape(shape),
+        unstable=unstable.reshape(shape),
+        k_lo=np.where(exists, k_lo, np.nan),
+        k_hi=np.where(exists, k_hi, np.nan),
+    )

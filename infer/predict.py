@@ -1,0 +1,405 @@
+"""Local disk conditions -> preferred fragment spacing, growth time and fragment mass.
+
+Two layers:
+
+* :func:`forward` works on plain cgs float arrays (the sampler's hot path);
+* :func:`predict` is the public interface: astropy Quantity (or strings such as
+  ``"80 g/cm2"``) in, a :class:`Prediction` of Quantity arrays out. Arguments
+  broadcast against each other like numpy arrays.
+"""
+
+from __future__ import annotations
+
+from dataclasses import dataclass, fields
+from typing import Any
+
+import astropy.units as u
+import numpy as np
+
+from . import dispersion
+from .constants import AU, G, M_H, M_JUP, MU_GAS, MU_H2, YR
+from .errors import InferError
+from .microphysics import cosmic_ray_ionization, diffusivities
+from .sheet import equilibrium, field_from_mass_to_flux, mass_to_flux_ratio
+from .units import dimensionless, to_cgs
+
+__all__ = ["Forward", "forward", "Prediction", "predict", "FRAGMENT_SHAPES"]
+
+#: fragment-mass conventions: mass of a wavelength-square, or of a disk of diameter lambda
+FRAGMENT_SHAPES = {"square": 1.0, "disk": np.pi / 4.0}
+
+
+@dataclass(frozen=True)
+class Forward:
+    """Forward-model output in cgs (arrays of the broadcast input shape).
+
+    NaN marks quantities that are undefined because nothing grows.
+    """
+
+    unstable: np.ndarray
+    wavelength: np.ndarray          # cm
+    growth_rate: np.ndarray         # s^-1
+    growth_time: np.ndarray         # s
+    fragment_mass: np.ndarray       # g
+    thermal_wavelength: np.ndarray  # cm
+    thermal_mass: np.ndarray        # g
+    toomre_q: np.ndarray
+    q_crit_mag: np.ndarray
+    band_short: np.ndarray          # cm, shortest unstable wavelength
+    band_long: np.ndarray           # cm, longest unstable wavelength (inf without rotation)
+    rho_c: np.ndarray               # g cm^-3
+    z0: np.ndarray                  # cm
+
+
+def forward(sigma, temperature, *, inv_mu2, eta_total, kappa=0.0, p_ext=0.0,
+            mu_gas: float = MU_GAS, fragment_shape: str = "square") -> Forward:
+    """Evaluate the thin-sheet model on cgs arrays (no validation, no Quantity).
+
+    Parameters
+    ----------
+    sigma : array_like
+        Surface density, g cm^-2.
+    temperature : array_like
+        Temperature, K.
+    inv_mu2 : array_like
+        1 / mu0^2 (0 for no field).
+    eta_total : array_like
+        eta_AD + eta_OD, cm^2 s^-1 (0 for flux freezing).
+    kappa : array_like
+        Epicyclic frequency, s^-1.
+    p_ext : array_like
+        External pressure, dyn cm^-2.
+    mu_gas : float
+        Mean particle mass in m_H.
+    fragment_shape : {"square", "disk"}
+        Fragment mass Sigma lambda^2, or Sigma pi (lambda/2)^2.
+    """
+    eq = equilibrium(sigma, temperature, p_ext, mu_gas=mu_gas)
+    t0, l0 = eq.time, eq.length
+    p = dispersion.sheet_params(
+        inv_mu2=inv_mu2, p_ext=eq.p_tilde, kappa=np.asarray(kappa, dtype=float) * t0,
+        eta=np.asarray(eta_total, dtype=float) * t0 / l0**2,
+    )
+    mode = dispersion.fastest_mode(p)
+    shape_factor = FRAGMENT_SHAPES[fragment_shape]
+    sig = np.broadcast_to(eq.sigma, mode.k.shape)
+    lam = 2.0 * np.pi * np.broadcast_to(l0, mode.k.shape) / mode.k
+    rate = mode.growth_rate / np.broadcast_to(t0, mode.k.shape)
+    lam_t = 2.0 * np.broadcast_to(eq.ceff2, mode.k.shape) / (G * sig)
+    cs = np.sqrt(eq.cs2)
+    q = cs * np.broadcast_to(np.asarray(kappa, dtype=float), mode.k.shape) / (np.pi * G * sig)
+    with np.errstate(invalid="ignore", divide="ignore"):
+        q_mag = (1.0 - p.inv_mu2) / np.sqrt(p.c2 + p.va2)
+        band_short = 2.0 * np.pi * l0 / mode.k_hi
+        band_long = np.where(mode.k_lo > 0, 2.0 * np.pi * l0 / mode.k_lo, np.inf)
+    band_long = np.where(np.isnan(mode.k_lo), np.nan, band_long)
+    return Forward(
+        unstable=mode.unstable,
+        wavelength=lam,
+        growth_rate=rate,
+        growth_time=1.0 / rate,
+        fragment_mass=shape_factor * sig * lam**2,
+        thermal_wavelength=lam_t,
+        thermal_mass=shape_factor * sig * lam_t**2,
+        toomre_q=q,
+        q_crit_mag=np.broadcast_to(q_mag, mode.k.shape),
+        band_short=band_short,
+        band_long=band_long,
+        rho_c=np.broadcast_to(eq.rho_c, mode.k.shape),
+        z0=np.broadcast_to(eq.z0, mode.k.shape),
+    )
+
+
+@dataclass(frozen=True)
+class Prediction:
+    """Predicted observables, Quantity arrays of the broadcast input shape.
+
+    Attributes
+    ----------
+    unstable : ndarray of bool
+        Whether any mode grows.
+    wavelength : Quantity [au]
+        Fastest-growing (preferred) wavelength lambda_m; NaN where stable.
+    growth_time : Quantity [yr]
+        e-folding time 1 / gamma_m of the fastest mode; NaN where stable.
+    fragment_mass : Quantity [jupiterMass]
+        Sigma lambda_m^2 ("square") or Sigma pi (lambda_m / 2)^2 ("disk").
+    thermal_wavelength : Quantity [au]
+        2 C_eff^2 / (G Sigma), the field-free, non-rotating fastest wavelength.
+    thermal_mass : Quantity [jupiterMass]
+        Same convention as ``fragment_mass`` with the thermal wavelength.
+    toomre_q : Quantity [dimensionless]
+        c_s kappa / (pi G Sigma).
+    q_crit_mag : Quantity [dimensionless]
+        Flux-frozen critical Q, (1 - mu0^-2) / sqrt((C_eff^2 + v_A^2) / c_s^2).
+    mass_to_flux : Quantity [dimensionless]
+        mu0 in units of the critical value (inf without field).
+    field : Quantity [mG]
+    eta_ad, eta_ohm : Quantity [cm2 / s]
+    ionization : Quantity [dimensionless]
+        x_e where it was given or derived, else NaN.
+    tau_ni : Quantity [yr]
+        Neutral-ion collision time where the ionization is known, else NaN.
+    band_short, band_long : Quantity [au]
+        Shortest and longest growing wavelength (band_long is inf without rotation).
+    midplane_density : Quantity [g / cm3]
+    scale_height : Quantity [au]
+        Half-thickness Z0 = Sigma / (2 rho_c).
+    fragment_shape : str
+        The fragment-mass convention used.
+    """
+
+    unstable: np.ndarray
+    wavelength: u.Quantity
+    growth_time: u.Quantity
+    fragment_mass: u.Quantity
+    thermal_wavelength: u.Quantity
+    thermal_mass: u.Quantity
+    toomre_q: u.Quantity
+    q_crit_mag: u.Quantity
+    mass_to_flux: u.Quantity
+    field: u.Quantity
+    eta_ad: u.Quantity
+    eta_ohm: u.Quantity
+    ionization: u.Quantity
+    tau_ni: u.Quantity
+    band_short: u.Quantity
+    band_long: u.Quantity
+    midplane_density: u.Quantity
+    scale_height: u.Quantity
+    fragment_shape: str = "square"
+
+    def to_json_dict(self) -> dict[str, Any]:
+        """The JSON keys of the command line (scalar predictions only)."""
+
+        def num(q, unit=None):
+            v = float(np.asarray(q.to_value(unit) if unit is not None else q.value))
+            return v if np.isfinite(v) else None
+
+        return {
+            "unstable": bool(np.asarray(self.unstable)),
+            "wavelength_au": num(self.wavelength, u.au),
+            "growth_time_yr": num(self.growth_time, u.yr),
+            "fragment_mass_mjup": num(self.fragment_mass, u.M_jup),
+            "fragment_mass_convention": self.fragment_shape,
+            "mass_to_flux": num(self.mass_to_flux),
+            "toomre_q": num(self.toomre_q),
+            "q_crit_mag": num(self.q_crit_mag),
+            "field_mG": num(self.field, u.mG),
+            "eta_ad_cm2_s": num(self.eta_ad, u.cm**2 / u.s),
+            "eta_ohm_cm2_s": num(self.eta_ohm, u.cm**2 / u.s),
+            "ionization": num(self.ionization),
+            "tau_ni_yr": num(self.tau_ni, u.yr),
+            "thermal_wavelength_au": num(self.thermal_wavelength, u.au),
+            "thermal_mass_mjup": num(self.thermal_mass, u.M_jup),
+            "band_short_au": num(self.band_short, u.au),
+            "band_long_au": num(self.band_long, u.au),
+            "midplane_density_g_cm3": num(self.midplane_density, u.g / u.cm**3),
+            "scale_height_au": num(self.scale_height, u.au),
+        }
+
+    def __len__(self) -> int:
+        return int(np.size(self.unstable))
+
+    @property
+    def names(self) -> list[str]:
+        return [f.name for f in fields(self)]
+
+
+def _positive(arr: np.ndarray, name: str, *, allow_zero: bool = False) -> np.ndarray:
+    bad = arr < 0.0 if allow_zero else arr <= 0.0
+    if np.any(bad):
+        what = "non-negative" if allow_zero else "positive"
+        raise InferError(f"{name}: must be {what}; got {arr[bad].ravel()[0]!r}")
+    return arr
+
+
+def _one_of(name_a: str, a: Any, name_b: str, b: Any) -> None:
+    if a is not None and b is not None:
+        raise InferError(f"give either {name_a} or {name_b}, not both")
+
+
+def predict(
+    *,
+    surface_density: Any = None,
+    column_density: Any = None,
+    temperature: Any,
+    mass_to_flux: Any = None,
+    field: Any = None,
+    eta_ad: Any = None,
+    eta_ohm: Any = None,
+    ionization: Any = None,
+    cosmic_ray_rate: Any = None,
+    kappa: Any = None,
+    stellar_mass: Any = None,
+    radius: Any = None,
+    external_pressure: Any = 0.0 * u.dyn / u.cm**2,
+    mu_gas: float = MU_GAS,
+    fragment_shape: str = "square",
+) -> Prediction:
+    """Predict the preferred fragment spacing, growth time and mass of a thin sheet.
+
+    Every argument may be a Quantity (scalar or array) or a string such as
+    ``"80 g/cm2"``; arrays broadcast against each other, so one call evaluates
+    many conditions at once.
+
+    Parameters
+    ----------
+    surface_density : Quantity [g / cm2]
+        Total gas surface density Sigma (or give ``column_density``).
+    column_density : Quantity [cm-2]
+        H2 column density N; Sigma = 2.8 m_H N.
+    temperature : Quantity [K]
+        Gas temperature (sets c_s with ``mu_gas``).
+    mass_to_flux : float or Quantity [dimensionless]
+        mu0 in units of the critical 1 / (2 pi sqrt(G)) (or give ``field``).
+        Omit both for a field-free sheet.
+    field : Quantity [G]
+        Vertical field strength B.
+    eta_ad, eta_ohm : Quantity [cm2 / s]
+        Ambipolar and Ohmic diffusivities (each defaults to 0).
+    ionization : float
+        Ionization fraction x_e = x_i; derives both diffusivities (excludes
+        ``eta_ad``, ``eta_ohm``, ``cosmic_ray_rate``).
+    cosmic_ray_rate : Quantity [1 / s]
+        Derive x_e from cosmic-ray ionization equilibrium instead.
+    kappa : Quantity [1 / s]
+        Epicyclic frequency (or give ``stellar_mass`` and ``radius`` for a
+        Keplerian disk, kappa = Omega). Omit all for a non-rotating sheet.
+    stellar_mass : Quantity [solMass]
+    radius : Quantity [au]
+    external_pressure : Quantity [dyn / cm2]
+        Confining pressure on the sheet's surfaces (default 0).
+    mu_gas : float
+        Mean mass per particle in units of m_H (default 2.33).
+    fragment_shape : {"square", "disk"}
+        Fragment-mass convention: Sigma lambda_m^2 or Sigma pi (lambda_m / 2)^2.
+
+    Returns
+    -------
+    Prediction
+        Quantity arrays; stable conditions have ``unstable=False`` and NaN
+        wavelength, growth time and fragment mass.
+
+    Raises
+    ------
+    InferError
+        (a ValueError) naming the argument and what to pass.
+    """
+    if fragment_shape not in FRAGMENT_SHAPES:
+        raise InferError(f"fragment_shape: must be one of {sorted(FRAGMENT_SHAPES)}, "
+                         f"got {fragment_shape!r}")
+    if not (np.isfinite(mu_gas) and mu_gas > 0):
+        raise InferError(f"mu_gas: must be a positive number, got {mu_gas!r}")
+    _one_of("surface_density", surface_density, "column_density", column_density)
+    if surface_density is None and column_density is None:
+        raise InferError("surface_density: required (or give column_density), e.g. '80 g/cm2'")
+    if surface_density is not None:
+        sigma = _positive(to_cgs(surface_density, name="surface_density", unit=u.g / u.cm**2),
+                          "surface_density")
+    else:
+        ncol = _positive(to_cgs(column_density, name="column_density", unit=u.cm**-2),
+                         "column_density")
+        sigma = MU_H2 * M_H * ncol
+    if temperature is None:
+        raise InferError("temperature: required, e.g. '40 K'")
+    temp = _positive(to_cgs(temperature, name="temperature", unit=u.K), "temperature")
+    p_ext = _positive(to_cgs(external_pressure, name="external_pressure", unit=u.dyn / u.cm**2),
+                      "external_pressure", allow_zero=True)
+
+    _one_of("field", field, "mass_to_flux", mass_to_flux)
+    if field is not None:
+        b_field = _positive(to_cgs(field, name="field", unit=u.G), "field", allow_zero=True)
+        mu0 = mass_to_flux_ratio(sigma, b_field)
+    elif mass_to_flux is not None:
+        mu0 = _positive(_ratio(mass_to_flux, "mass_to_flux"), "mass_to_flux")
+        b_field = field_from_mass_to_flux(sigma, mu0)
+    else:
+        b_field = np.zeros(())
+        mu0 = np.full((), np.inf)
+    with np.errstate(divide="ignore"):
+        inv_mu2 = np.where(np.isinf(mu0), 0.0, 1.0 / mu0**2)
+
+    if kappa is not None and (stellar_mass is not None or radius is not None):
+        raise InferError("give either kappa or stellar_mass with radius, not both")
+    if kappa is not None:
+        kap = _positive(to_cgs(kappa, name="kappa", unit=1 / u.s), "kappa", allow_zero=True)
+    elif stellar_mass is not None or radius is not None:
+        if stellar_mass is None or radius is None:
+            raise InferError("stellar_mass and radius: give both for a Keplerian disk "
+                             "(kappa = sqrt(G M / r^3))")
+        mstar = _positive(to_cgs(stellar_mass, name="stellar_mass", unit=u.g), "stellar_mass")
+        rad = _positive(to_cgs(radius, name="radius", unit=u.cm), "radius")
+        kap = np.sqrt(G * mstar / rad**3)
+    else:
+        kap = np.zeros(())
+
+    eq = equilibrium(sigma, temp, p_ext, mu_gas=mu_gas)
+    if ionization is not None or cosmic_ray_rate is not None:
+        for nm, val in (("eta_ad", eta_ad), ("eta_ohm", eta_ohm)):
+            if val is not None:
+                raise InferError(f"give either ionization (or cosmic_ray_rate) or {nm}, not both")
+        _one_of("ionization", ionization, "cosmic_ray_rate", cosmic_ray_rate)
+        if ionization is not None:
+            x_e = _positive(_ratio(ionization, "ionization"), "ionization")
+            if np.any(x_e > 1.0):
+                raise InferError("ionization: the ionization fraction must be <= 1")
+        else:
+            zeta = _positive(to_cgs(cosmic_ray_rate, name="cosmic_ray_rate", unit=1 / u.s),
+                             "cosmic_ray_rate")
+            x_e = cosmic_ray_ionization(eq.rho_c, zeta, mu_gas=mu_gas)
+        e_ad, e_ohm, tau = diffusivities(x_e=x_e, field=b_field, rho=eq.rho_c,
+                                         temperature=temp, mu_gas=mu_gas)
+    else:
+        e_ad = (np.zeros(()) if eta_ad is None else
+                _positive(to_cgs(eta_ad, name="eta_ad", unit=u.cm**2 / u.s), "eta_ad",
+                          allow_zero=True))
+        e_ohm = (np.zeros(()) if eta_ohm is None else
+                 _positive(to_cgs(eta_ohm, name="eta_ohm", unit=u.cm**2 / u.s), "eta_ohm",
+                           allow_zero=True))
+        x_e = np.full((), np.nan)
+        tau = np.full((), np.nan)
+
+    try:
+        shape = np.broadcast_shapes(*(np.shape(a) for a in
+                                      (sigma, temp, p_ext, mu0, b_field, kap, e_ad, e_ohm, x_e)))
+    except ValueError:
+        raise InferError("the array arguments do not broadcast against each other; "
+                         "give scalars or arrays of compatible shapes") from None
+
+    out = forward(sigma, temp, inv_mu2=inv_mu2, eta_total=e_ad + e_ohm, kappa=kap, p_ext=p_ext,
+                  mu_gas=mu_gas, fragment_shape=fragment_shape)
+
+    def b(x):
+        return np.broadcast_to(np.asarray(x, dtype=float), shape)
+
+    return Prediction(
+        unstable=np.broadcast_to(out.unstable, shape),
+        wavelength=(b(out.wavelength) / AU) * u.au,
+        growth_time=(b(out.growth_time) / YR) * u.yr,
+        fragment_mass=(b(out.fragment_mass) / M_JUP) * u.M_jup,
+        thermal_wavelength=(b(out.thermal_wavelength) / AU) * u.au,
+        thermal_mass=(b(out.thermal_mass) / M_JUP) * u.M_jup,
+        toomre_q=b(out.toomre_q) * u.dimensionless_unscaled,
+        q_crit_mag=b(out.q_crit_mag) * u.dimensionless_unscaled,
+        mass_to_flux=b(mu0) * u.dimensionless_unscaled,
+        field=(b(b_field) * 1e3) * u.mG,
+        eta_ad=b(e_ad) * u.cm**2 / u.s,
+        eta_ohm=b(e_ohm) * u.cm**2 / u.s,
+        ionization=b(x_e) * u.dimensionless_unscaled,
+        tau_ni=(b(tau) / YR) * u.yr,
+        band_short=(b(out.band_short) / AU) * u.au,
+        band_long=(b(out.band_long) / AU) * u.au,
+        midplane_density=b(out.rho_c) * u.g / u.cm**3,
+        scale_height=(b(out.z0) / AU) * u.au,
+        fragment_shape=fragment_shape,
+    )
+
+
+def _ratio(value: Any, name: str) -> np.ndarray:
+    """A dimensionless number (mu0 may be inf for 'no field')."""
+    if isinstance(value, str) and value.strip().lower() in {"inf", "infinity"}:
+        return np.asarray(np.inf)
+    if isinstance(value, (int, float, np.ndarray)) and np.all(np.isinf(np.asarray(value, float))):
+        return np.asarray(value, dtype=float)
+    return dimensionless(value, name=name)
