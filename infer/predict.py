@@ -17,16 +17,11 @@ import astropy.units as u
 import numpy as np
 
 from . import dispersion
-from .constants import AU, G, M_H, M_JUP, MU_GAS, MU_H2, YR
-from .errors import InferError
-from .microphysics import cosmic_ray_ionization, diffusivities
-from .sheet import equilibrium, field_from_mass_to_flux, mass_to_flux_ratio
-from .units import dimensionless, to_cgs
+from .conditions import FRAGMENT_SHAPES, Conditions, resolve_conditions
+from .constants import AU, M_JUP, MU_GAS, YR, G
+from .sheet import equilibrium
 
-__all__ = ["Forward", "forward", "Prediction", "predict", "FRAGMENT_SHAPES"]
-
-#: fragment-mass conventions: mass of a wavelength-square, or of a disk of diameter lambda
-FRAGMENT_SHAPES = {"square": 1.0, "disk": np.pi / 4.0}
+__all__ = ["Forward", "forward", "forward_conditions", "Prediction", "predict"]
 
 
 @dataclass(frozen=True)
@@ -206,19 +201,6 @@ class Prediction:
         return [f.name for f in fields(self)]
 
 
-def _positive(arr: np.ndarray, name: str, *, allow_zero: bool = False) -> np.ndarray:
-    bad = arr < 0.0 if allow_zero else arr <= 0.0
-    if np.any(bad):
-        what = "non-negative" if allow_zero else "positive"
-        raise InferError(f"{name}: must be {what}; got {arr[bad].ravel()[0]!r}")
-    return arr
-
-
-def _one_of(name_a: str, a: Any, name_b: str, b: Any) -> None:
-    if a is not None and b is not None:
-        raise InferError(f"give either {name_a} or {name_b}, not both")
-
-
 def predict(
     *,
     surface_density: Any = None,
@@ -286,89 +268,28 @@ def predict(
     InferError
         (a ValueError) naming the argument and what to pass.
     """
-    if fragment_shape not in FRAGMENT_SHAPES:
-        raise InferError(f"fragment_shape: must be one of {sorted(FRAGMENT_SHAPES)}, "
-                         f"got {fragment_shape!r}")
-    if not (np.isfinite(mu_gas) and mu_gas > 0):
-        raise InferError(f"mu_gas: must be a positive number, got {mu_gas!r}")
-    _one_of("surface_density", surface_density, "column_density", column_density)
-    if surface_density is None and column_density is None:
-        raise InferError("surface_density: required (or give column_density), e.g. '80 g/cm2'")
-    if surface_density is not None:
-        sigma = _positive(to_cgs(surface_density, name="surface_density", unit=u.g / u.cm**2),
-                          "surface_density")
-    else:
-        ncol = _positive(to_cgs(column_density, name="column_density", unit=u.cm**-2),
-                         "column_density")
-        sigma = MU_H2 * M_H * ncol
-    if temperature is None:
-        raise InferError("temperature: required, e.g. '40 K'")
-    temp = _positive(to_cgs(temperature, name="temperature", unit=u.K), "temperature")
-    p_ext = _positive(to_cgs(external_pressure, name="external_pressure", unit=u.dyn / u.cm**2),
-                      "external_pressure", allow_zero=True)
+    c = resolve_conditions(
+        surface_density=surface_density, column_density=column_density, temperature=temperature,
+        mass_to_flux=mass_to_flux, field=field, eta_ad=eta_ad, eta_ohm=eta_ohm,
+        ionization=ionization, cosmic_ray_rate=cosmic_ray_rate, kappa=kappa,
+        stellar_mass=stellar_mass, radius=radius, external_pressure=external_pressure,
+        mu_gas=mu_gas, fragment_shape=fragment_shape,
+    )
+    return prediction_from_conditions(c)
 
-    _one_of("field", field, "mass_to_flux", mass_to_flux)
-    if field is not None:
-        b_field = _positive(to_cgs(field, name="field", unit=u.G), "field", allow_zero=True)
-        mu0 = mass_to_flux_ratio(sigma, b_field)
-    elif mass_to_flux is not None:
-        mu0 = _positive(_ratio(mass_to_flux, "mass_to_flux"), "mass_to_flux")
-        b_field = field_from_mass_to_flux(sigma, mu0)
-    else:
-        b_field = np.zeros(())
-        mu0 = np.full((), np.inf)
-    with np.errstate(divide="ignore"):
-        inv_mu2 = np.where(np.isinf(mu0), 0.0, 1.0 / mu0**2)
 
-    if kappa is not None and (stellar_mass is not None or radius is not None):
-        raise InferError("give either kappa or stellar_mass with radius, not both")
-    if kappa is not None:
-        kap = _positive(to_cgs(kappa, name="kappa", unit=1 / u.s), "kappa", allow_zero=True)
-    elif stellar_mass is not None or radius is not None:
-        if stellar_mass is None or radius is None:
-            raise InferError("stellar_mass and radius: give both for a Keplerian disk "
-                             "(kappa = sqrt(G M / r^3))")
-        mstar = _positive(to_cgs(stellar_mass, name="stellar_mass", unit=u.g), "stellar_mass")
-        rad = _positive(to_cgs(radius, name="radius", unit=u.cm), "radius")
-        kap = np.sqrt(G * mstar / rad**3)
-    else:
-        kap = np.zeros(())
+def forward_conditions(c: Conditions) -> Forward:
+    """:func:`forward` on resolved :class:`~infer.conditions.Conditions`."""
+    return forward(c.sigma, c.temperature, inv_mu2=c.inv_mu2, eta_total=c.eta_ad + c.eta_ohm,
+                   kappa=c.kappa, p_ext=c.p_ext, mu_gas=c.mu_gas,
+                   fragment_shape=c.fragment_shape)
 
-    eq = equilibrium(sigma, temp, p_ext, mu_gas=mu_gas)
-    if ionization is not None or cosmic_ray_rate is not None:
-        for nm, val in (("eta_ad", eta_ad), ("eta_ohm", eta_ohm)):
-            if val is not None:
-                raise InferError(f"give either ionization (or cosmic_ray_rate) or {nm}, not both")
-        _one_of("ionization", ionization, "cosmic_ray_rate", cosmic_ray_rate)
-        if ionization is not None:
-            x_e = _positive(_ratio(ionization, "ionization"), "ionization")
-            if np.any(x_e > 1.0):
-                raise InferError("ionization: the ionization fraction must be <= 1")
-        else:
-            zeta = _positive(to_cgs(cosmic_ray_rate, name="cosmic_ray_rate", unit=1 / u.s),
-                             "cosmic_ray_rate")
-            x_e = cosmic_ray_ionization(eq.rho_c, zeta, mu_gas=mu_gas)
-        e_ad, e_ohm, tau = diffusivities(x_e=x_e, field=b_field, rho=eq.rho_c,
-                                         temperature=temp, mu_gas=mu_gas)
-    else:
-        e_ad = (np.zeros(()) if eta_ad is None else
-                _positive(to_cgs(eta_ad, name="eta_ad", unit=u.cm**2 / u.s), "eta_ad",
-                          allow_zero=True))
-        e_ohm = (np.zeros(()) if eta_ohm is None else
-                 _positive(to_cgs(eta_ohm, name="eta_ohm", unit=u.cm**2 / u.s), "eta_ohm",
-                           allow_zero=True))
-        x_e = np.full((), np.nan)
-        tau = np.full((), np.nan)
 
-    try:
-        shape = np.broadcast_shapes(*(np.shape(a) for a in
-                                      (sigma, temp, p_ext, mu0, b_field, kap, e_ad, e_ohm, x_e)))
-    except ValueError:
-        raise InferError("the array arguments do not broadcast against each other; "
-                         "give scalars or arrays of compatible shapes") from None
-
-    out = forward(sigma, temp, inv_mu2=inv_mu2, eta_total=e_ad + e_ohm, kappa=kap, p_ext=p_ext,
-                  mu_gas=mu_gas, fragment_shape=fragment_shape)
+def prediction_from_conditions(c: Conditions) -> Prediction:
+    """Evaluate the model on resolved conditions; Quantity results."""
+    out = forward_conditions(c)
+    shape = c.shape
+    b_field, mu0, e_ad, e_ohm, x_e, tau = c.field, c.mu0, c.eta_ad, c.eta_ohm, c.x_e, c.tau_ni
 
     def b(x):
         return np.broadcast_to(np.asarray(x, dtype=float), shape)
@@ -392,14 +313,7 @@ def predict(
         band_long=(b(out.band_long) / AU) * u.au,
         midplane_density=b(out.rho_c) * u.g / u.cm**3,
         scale_height=(b(out.z0) / AU) * u.au,
-        fragment_shape=fragment_shape,
+        fragment_shape=c.fragment_shape,
     )
 
 
-def _ratio(value: Any, name: str) -> np.ndarray:
-    """A dimensionless number (mu0 may be inf for 'no field')."""
-    if isinstance(value, str) and value.strip().lower() in {"inf", "infinity"}:
-        return np.asarray(np.inf)
-    if isinstance(value, (int, float, np.ndarray)) and np.all(np.isinf(np.asarray(value, float))):
-        return np.asarray(value, dtype=float)
-    return dimensionless(value, name=name)

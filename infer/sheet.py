@@ -10,7 +10,7 @@ from dataclasses import dataclass
 
 import numpy as np
 
-from .constants import G, K_B, M_H, MU_GAS
+from .constants import K_B, M_H, MU_GAS, G
 
 __all__ = [
     "Equilibrium",

@@ -1,0 +1,205 @@
+"""Local conditions of the sheet: validation and resolution to cgs arrays.
+
+:func:`resolve_conditions` accepts every way the public API lets a user state
+the local conditions (surface or column density, field or mass-to-flux ratio,
+diffusivities or ionization, epicyclic frequency or a Keplerian orbit) as
+Quantity or strings, checks them, and returns one :class:`Conditions` of plain
+cgs arrays that broadcast together.
+"""
+
+from __future__ import annotations
+
+from dataclasses import dataclass
+from typing import Any
+
+import astropy.units as u
+import numpy as np
+
+from .constants import M_H, MU_GAS, MU_H2, G
+from .errors import InferError
+from .microphysics import cosmic_ray_ionization, diffusivities
+from .sheet import equilibrium, field_from_mass_to_flux, mass_to_flux_ratio
+from .units import dimensionless, to_cgs
+
+__all__ = ["Conditions", "resolve_conditions", "FRAGMENT_SHAPES"]
+
+#: fragment-mass conventions: mass of a wavelength-square, or of a disk of diameter lambda
+FRAGMENT_SHAPES = {"square": 1.0, "disk": np.pi / 4.0}
+
+
+@dataclass(frozen=True)
+class Conditions:
+    """Resolved local conditions, cgs arrays broadcasting to ``shape``.
+
+    Attributes
+    ----------
+    sigma : g cm^-2
+    temperature : K
+    p_ext : dyn cm^-2
+    mu0 : mass-to-flux ratio in critical units (inf without field)
+    field : G
+    kappa : s^-1
+    eta_ad, eta_ohm : cm^2 s^-1
+    x_e : ionization fraction (NaN when the diffusivities were given directly)
+    tau_ni : s (NaN when unknown)
+    mu_gas : mean particle mass in m_H
+    fragment_shape : "square" or "disk"
+    shape : broadcast shape
+    """
+
+    sigma: np.ndarray
+    temperature: np.ndarray
+    p_ext: np.ndarray
+    mu0: np.ndarray
+    field: np.ndarray
+    kappa: np.ndarray
+    eta_ad: np.ndarray
+    eta_ohm: np.ndarray
+    x_e: np.ndarray
+    tau_ni: np.ndarray
+    mu_gas: float
+    fragment_shape: str
+    shape: tuple
+
+    @property
+    def inv_mu2(self) -> np.ndarray:
+        """1 / mu0^2 (0 without field)."""
+        with np.errstate(divide="ignore"):
+            return np.where(np.isinf(self.mu0), 0.0, 1.0 / self.mu0**2)
+
+
+def _positive(arr: np.ndarray, name: str, *, allow_zero: bool = False) -> np.ndarray:
+    bad = arr < 0.0 if allow_zero else arr <= 0.0
+    if np.any(bad):
+        what = "non-negative" if allow_zero else "positive"
+        raise InferError(f"{name}: must be {what}; got {arr[bad].ravel()[0]!r}")
+    return arr
+
+
+def _one_of(name_a: str, a: Any, name_b: str, b: Any) -> None:
+    if a is not None and b is not None:
+        raise InferError(f"give either {name_a} or {name_b}, not both")
+
+
+def resolve_conditions(
+    *,
+    surface_density: Any = None,
+    column_density: Any = None,
+    temperature: Any,
+    mass_to_flux: Any = None,
+    field: Any = None,
+    eta_ad: Any = None,
+    eta_ohm: Any = None,
+    ionization: Any = None,
+    cosmic_ray_rate: Any = None,
+    kappa: Any = None,
+    stellar_mass: Any = None,
+    radius: Any = None,
+    external_pressure: Any = 0.0 * u.dyn / u.cm**2,
+    mu_gas: float = MU_GAS,
+    fragment_shape: str = "square",
+) -> Conditions:
+    """Validate the conditions and resolve them to cgs arrays.
+
+    Takes the same arguments as :func:`infer.predict`; see there.
+
+    Raises
+    ------
+    InferError
+        (a ValueError) naming the argument and what to pass.
+    """
+    if fragment_shape not in FRAGMENT_SHAPES:
+        raise InferError(f"fragment_shape: must be one of {sorted(FRAGMENT_SHAPES)}, "
+                         f"got {fragment_shape!r}")
+    if not (np.isfinite(mu_gas) and mu_gas > 0):
+        raise InferError(f"mu_gas: must be a positive number, got {mu_gas!r}")
+    _one_of("surface_density", surface_density, "column_density", column_density)
+    if surface_density is None and column_density is None:
+        raise InferError("surface_density: required (or give column_density), e.g. '80 g/cm2'")
+    if surface_density is not None:
+        sigma = _positive(to_cgs(surface_density, name="surface_density", unit=u.g / u.cm**2),
+                          "surface_density")
+    else:
+        ncol = _positive(to_cgs(column_density, name="column_density", unit=u.cm**-2),
+                         "column_density")
+        sigma = MU_H2 * M_H * ncol
+    if temperature is None:
+        raise InferError("temperature: required, e.g. '40 K'")
+    temp = _positive(to_cgs(temperature, name="temperature", unit=u.K), "temperature")
+    p_ext = _positive(to_cgs(external_pressure, name="external_pressure", unit=u.dyn / u.cm**2),
+                      "external_pressure", allow_zero=True)
+
+    _one_of("field", field, "mass_to_flux", mass_to_flux)
+    if field is not None:
+        b_field = _positive(to_cgs(field, name="field", unit=u.G), "field", allow_zero=True)
+        mu0 = mass_to_flux_ratio(sigma, b_field)
+    elif mass_to_flux is not None:
+        mu0 = _positive(_ratio(mass_to_flux, "mass_to_flux"), "mass_to_flux")
+        b_field = field_from_mass_to_flux(sigma, mu0)
+    else:
+        b_field = np.zeros(())
+        mu0 = np.full((), np.inf)
+
+    if kappa is not None and (stellar_mass is not None or radius is not None):
+        raise InferError("give either kappa or stellar_mass with radius, not both")
+    if kappa is not None:
+        kap = _positive(to_cgs(kappa, name="kappa", unit=1 / u.s), "kappa", allow_zero=True)
+    elif stellar_mass is not None or radius is not None:
+        if stellar_mass is None or radius is None:
+            raise InferError("stellar_mass and radius: give both for a Keplerian disk "
+                             "(kappa = sqrt(G M / r^3))")
+        mstar = _positive(to_cgs(stellar_mass, name="stellar_mass", unit=u.g), "stellar_mass")
+        rad = _positive(to_cgs(radius, name="radius", unit=u.cm), "radius")
+        kap = np.sqrt(G * mstar / rad**3)
+    else:
+        kap = np.zeros(())
+
+    eq = equilibrium(sigma, temp, p_ext, mu_gas=mu_gas)
+    if ionization is not None or cosmic_ray_rate is not None:
+        for nm, val in (("eta_ad", eta_ad), ("eta_ohm", eta_ohm)):
+            if val is not None:
+                raise InferError(f"give either ionization (or cosmic_ray_rate) or {nm}, not both")
+        _one_of("ionization", ionization, "cosmic_ray_rate", cosmic_ray_rate)
+        if ionization is not None:
+            x_e = _positive(_ratio(ionization, "ionization"), "ionization")
+            if np.any(x_e > 1.0):
+                raise InferError("ionization: the ionization fraction must be <= 1")
+        else:
+            zeta = _positive(to_cgs(cosmic_ray_rate, name="cosmic_ray_rate", unit=1 / u.s),
+                             "cosmic_ray_rate")
+            x_e = cosmic_ray_ionization(eq.rho_c, zeta, mu_gas=mu_gas)
+        e_ad, e_ohm, tau = diffusivities(x_e=x_e, field=b_field, rho=eq.rho_c,
+                                         temperature=temp, mu_gas=mu_gas)
+    else:
+        e_ad = (np.zeros(()) if eta_ad is None else
+                _positive(to_cgs(eta_ad, name="eta_ad", unit=u.cm**2 / u.s), "eta_ad",
+                          allow_zero=True))
+        e_ohm = (np.zeros(()) if eta_ohm is None else
+                 _positive(to_cgs(eta_ohm, name="eta_ohm", unit=u.cm**2 / u.s), "eta_ohm",
+                           allow_zero=True))
+        x_e = np.full((), np.nan)
+        tau = np.full((), np.nan)
+
+    try:
+        shape = np.broadcast_shapes(*(np.shape(a) for a in
+                                      (sigma, temp, p_ext, mu0, b_field, kap, e_ad, e_ohm, x_e)))
+    except ValueError:
+        raise InferError("the array arguments do not broadcast against each other; "
+                         "give scalars or arrays of compatible shapes") from None
+
+    return Conditions(
+        sigma=sigma, temperature=temp, p_ext=p_ext, mu0=np.asarray(mu0, dtype=float),
+        field=np.asarray(b_field, dtype=float), kappa=np.asarray(kap, dtype=float),
+        eta_ad=np.asarray(e_ad, dtype=float), eta_ohm=np.asarray(e_ohm, dtype=float),
+        x_e=np.asarray(x_e, dtype=float), tau_ni=np.asarray(tau, dtype=float),
+        mu_gas=float(mu_gas), fragment_shape=fragment_shape, shape=shape,
+    )
+
+
+def _ratio(value: Any, name: str) -> np.ndarray:
+    """A dimensionless number (mu0 may be inf for 'no field')."""
+    if isinstance(value, str) and value.strip().lower() in {"inf", "infinity"}:
+        return np.asarray(np.inf)
+    if isinstance(value, (int, float, np.ndarray)) and np.all(np.isinf(np.asarray(value, float))):
+        return np.asarray(value, dtype=float)
+    return dimensionless(value, name=name)
