@@ -42,6 +42,7 @@ _N_GOLDEN = 50                         # golden-section steps, fallback only (0.
 _N_POLISH = 12                         # cap on Newton steps in (g, k)
 _N_NEWTON = 60                         # hard cap on Newton steps for the cubic root
 _LOG_K_SPAN_NO_ROTATION = np.log(1e6)  # lower end of the band when kappa = 0
+_ROUNDOFF = 8.0 * np.finfo(float).eps  # relative slack when comparing growth rates
 
 
 @dataclass(frozen=True)
@@ -251,47 +252,68 @@ def _polish(k, g, p: SheetParams, k_min, k_max):
 
     Implicit differentiation of the cubic p(g, k) = 0 gives dg/dk = -p_k / p_g,
     so the fastest mode is where p_k vanishes on the root. Steps are clipped to
-    [k_min, k_max]; only entries still moving are iterated. Returns the
-    polished k, g and a flag of clean convergence.
+    [k_min, k_max]. Large batches iterate only the entries still moving; small
+    ones (a sampler's walkers) iterate all entries, which costs fewer numpy
+    calls. Returns the polished k, g and a flag of clean convergence.
     """
     k = k.copy()
     g = g.copy()
     ok = np.zeros(k.shape, dtype=bool)
-    iz_all = 1.0 / p.z0
-    c2_all = p.c2
-    va2_all = p.va2
-    active = np.arange(k.size)
+    m, eta, kap2 = p.inv_mu2, p.eta, p.kappa**2
+    iz, c2 = 1.0 / p.z0, p.c2
+    vv = p.va2
+    b_kk = 2.0 * (c2 + vv)
+    two_c2 = 2.0 * c2
+    two_eta = 2.0 * eta
+    compact = k.size > 256
+    active = np.arange(k.size) if compact else None
     for _ in range(_N_POLISH):
-        kk, gg = k[active], g[active]
-        m, vv, eta = p.inv_mu2[active], va2_all[active], p.eta[active]
-        kap2, c2, iz = p.kappa[active] ** 2, c2_all[active], iz_all[active]
+        if compact:
+            kk, gg = k[active], g[active]
+            am, aeta, akap2, aiz, ac2, avv = (m[active], eta[active], kap2[active], iz[active],
+                                              c2[active], vv[active])
+            ab_kk, atwo_c2, atwo_eta = b_kk[active], two_c2[active], two_eta[active]
+            lo, hi = k_min[active], k_max[active]
+        else:
+            kk, gg = k, g
+            am, aeta, akap2, aiz, ac2, avv = m, eta, kap2, iz, c2, vv
+            ab_kk, atwo_c2, atwo_eta = b_kk, two_c2, two_eta
+            lo, hi = k_min, k_max
         with np.errstate(invalid="ignore", divide="ignore", over="ignore"):
-            th = eta * (kk * iz + kk * kk)
-            th_k = eta * (iz + 2.0 * kk)
-            d = kap2 + c2 * kk * kk - kk
-            d_k = 2.0 * c2 * kk - 1.0
-            b = d + m * kk + vv * kk * kk
-            b_k = d_k + m + 2.0 * vv * kk
+            k2 = kk * kk
+            th = aeta * (kk * aiz + k2)
+            th_k = aeta * aiz + atwo_eta * kk
+            d = akap2 + ac2 * k2 - kk
+            d_k = atwo_c2 * kk - 1.0
+            b = d + am * kk + avv * k2
+            b_k = d_k + am + 2.0 * avv * kk
             g2 = gg * gg
             f = g2 * gg + th * g2 + b * gg + th * d
             f_g = 3.0 * g2 + 2.0 * th * gg + b
-            f_k = th_k * g2 + b_k * gg + th_k * d + th * d_k
+            f_k = th_k * (g2 + d) + b_k * gg + th * d_k
             f_kg = 2.0 * th_k * gg + b_k
-            f_kk = (2.0 * eta * g2 + 2.0 * (c2 + vv) * gg + 2.0 * eta * d
-                    + 2.0 * th_k * d_k + 2.0 * c2 * th)
+            f_kk = atwo_eta * (g2 + d) + ab_kk * gg + 2.0 * th_k * d_k + atwo_c2 * th
             det = f_g * f_kk - f_k * f_kg
-            dg = -(f * f_kk - f_k * f_k) / det
-            dk = -(f_g * f_k - f_kg * f) / det
+            dg = (f_k * f_k - f * f_kk) / det
+            dk = (f_kg * f - f_g * f_k) / det
         good = np.isfinite(dg) & np.isfinite(dk)
         dg = np.where(good, dg, 0.0)
         dk = np.where(good, dk, 0.0)
-        k[active] = np.clip(kk + dk, k_min[active], k_max[active])
-        g[active] = np.maximum(gg + dg, 0.0)
+        k_new = np.clip(kk + dk, lo, hi)
+        g_new = np.maximum(gg + dg, 0.0)
         done = good & (np.abs(dk) <= 1e-12 * kk) & (np.abs(dg) <= 1e-12 * np.maximum(gg, 1e-300))
-        ok[active] = done
-        active = active[~done]
-        if active.size == 0:
-            break
+        if compact:
+            k[active] = k_new
+            g[active] = g_new
+            ok[active] = done
+            active = active[~done]
+            if active.size == 0:
+                break
+        else:
+            k, g = k_new, g_new
+            ok = done
+            if ok.all():
+                break
     return k, g, ok
 
 
@@ -377,8 +399,9 @@ def fastest_mode(p: SheetParams) -> FastestMode:
         b = np.minimum(x0 + cell, hi)
         k1, g1, ok = _polish(np.exp(x0), g0, q, np.exp(a), np.exp(b))
         # accept the polished point only if it is a clean interior maximum
-        g1 = np.where(ok, growth_rate(k1, q), 0.0)
-        ok &= (k1 > np.exp(a)) & (k1 < np.exp(b)) & (g1 >= g0)
+        g1 = np.where(ok, g1, 0.0)
+        # (g1 may fall short of g0 by round-off when the start was already the peak)
+        ok &= (k1 > np.exp(a)) & (k1 < np.exp(b)) & (g1 >= g0 * (1.0 - _ROUNDOFF))
         bad = np.flatnonzero(~ok)
         if bad.size:
             kb, gb = _golden(a[bad], b[bad], _take(q, bad))

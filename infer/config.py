@@ -1,0 +1,353 @@
+"""The run configuration (TOML): model options, catalog metadata, priors, sampler settings.
+
+Read with the standard library's :mod:`tomllib`; every key is checked, unknown
+keys are errors (:class:`~infer.errors.ConfigError` naming the key), and the
+fully resolved configuration is written back with ``tomli_w`` into the output
+folder of a fit.
+"""
+
+from __future__ import annotations
+
+import hashlib
+import tomllib
+from collections.abc import Mapping
+from dataclasses import dataclass, field, replace
+from pathlib import Path
+from typing import Any
+
+import astropy.units as u
+import numpy as np
+
+from .errors import ConfigError
+from .priors import PARAMETERS, Prior, parse_prior
+from .units import parse_quantity
+
+__all__ = [
+    "ModelOptions",
+    "SamplerOptions",
+    "RunConfig",
+    "load_config",
+    "parse_config",
+    "catalog_options",
+    "CATALOG_KEYS",
+    "DIFFUSION_MODES",
+]
+
+DIFFUSION_MODES = ("ionization", "free", "ideal")
+
+#: metadata keys a config's [catalog] table may set (see the catalog contract)
+CATALOG_KEYS = (
+    "distance", "inclination", "position_angle", "wavelength", "frequency", "dust_temperature",
+    "dust_temperature_err", "dust_opacity", "dust_opacity_err", "opacity_wavelength",
+    "opacity_index", "gas_to_dust", "center_ra", "center_dec",
+)
+
+#: priors used when the config does not mention them
+DEFAULT_PRIORS: dict[str, Any] = {
+    "external_pressure": {"value": "0 dyn / cm2"},
+    "spacing_scatter": {"dist": "halfnormal", "scale_dex": 0.2},
+    "mass_scatter": {"dist": "halfnormal", "scale_dex": 0.3},
+    "spacing_calibration": {"value": 1.0},
+    "mass_calibration": {"value": 1.0},
+}
+
+
+@dataclass(frozen=True)
+class ModelOptions:
+    """The ``[model]`` table.
+
+    Attributes
+    ----------
+    diffusion : {"ionization", "free", "ideal"}
+    spacing : {"mst", "nearest"}
+    fragment_shape : {"square", "disk"}
+    mu_gas : float
+    use_spacings, use_masses : bool
+        Which observables enter the likelihood.
+    growth_time_max : float or None
+        Upper limit on the growth time, yr (e.g. the system's age).
+    growth_constraint : {"soft", "hard"}
+    growth_width_dex : float
+        Width of the soft (log-normal CDF) constraint, dex.
+    """
+
+    diffusion: str = "ionization"
+    spacing: str = "mst"
+    fragment_shape: str = "square"
+    mu_gas: float = 2.33
+    use_spacings: bool = True
+    use_masses: bool = True
+    growth_time_max: float | None = None
+    growth_constraint: str = "soft"
+    growth_width_dex: float = 0.2
+
+
+@dataclass(frozen=True)
+class SamplerOptions:
+    """The ``[sampler]`` table.
+
+    Attributes
+    ----------
+    walkers : int
+    max_steps : int
+        Cap on the chain length.
+    seed : int
+    moves : {"de", "stretch"}
+        Differential-evolution mix (DEMove 0.8 + DESnookerMove 0.2) or the stretch move.
+    tau_factor : float
+        Converged when the chain is longer than tau_factor integrated autocorrelation times ...
+    tau_rtol : float
+        ... and the estimate changed by less than this fraction since the last check.
+    check_every : int
+        Steps between convergence checks and checkpoints (the first chunk).
+    """
+
+    walkers: int = 32
+    max_steps: int = 20000
+    seed: int = 1
+    moves: str = "de"
+    tau_factor: float = 50.0
+    tau_rtol: float = 0.01
+    check_every: int = 100
+
+
+@dataclass(frozen=True)
+class RunConfig:
+    """A validated run configuration."""
+
+    model: ModelOptions
+    priors: Mapping[str, Prior]
+    sampler: SamplerOptions
+    catalog: Mapping[str, Any] = field(default_factory=dict)
+    source: str = "<config>"
+
+    @property
+    def sampled(self) -> list[str]:
+        """Names of the sampled (non-fixed) parameters, in a stable order."""
+        return [n for n in PARAMETERS if n in self.priors and not self.priors[n].fixed]
+
+    def to_dict(self) -> dict[str, Any]:
+        """The fully resolved configuration as plain TOML-ready data."""
+        m = {k: v for k, v in self.model.__dict__.items() if v is not None}
+        if self.model.growth_time_max is not None:
+            m["growth_time_max"] = f"{self.model.growth_time_max:.17g} yr"
+        return {
+            "model": m,
+            "catalog": dict(self.catalog),
+            "priors": {n: self.priors[n].to_config() for n in PARAMETERS if n in self.priors},
+            "sampler": dict(self.sampler.__dict__),
+        }
+
+    def to_toml(self) -> str:
+        import tomli_w
+
+        return tomli_w.dumps(self.to_dict())
+
+    def digest(self) -> str:
+        """SHA-256 of what determines the posterior (everything but the chain length)."""
+        d = self.to_dict()
+        d["sampler"] = {k: v for k, v in d["sampler"].items() if k not in ("max_steps",)}
+        import tomli_w
+
+        return hashlib.sha256(tomli_w.dumps(d).encode()).hexdigest()
+
+    def with_sampler(self, **changes: Any) -> RunConfig:
+        """A copy with sampler settings replaced (None values are ignored)."""
+        changes = {k: v for k, v in changes.items() if v is not None}
+        if not changes:
+            return self
+        s = replace(self.sampler, **changes)
+        _check_sampler(s, len(self.sampled))
+        return replace(self, sampler=s)
+
+
+def load_config(path: str | Path) -> RunConfig:
+    """Read and validate a TOML run configuration file.
+
+    Raises
+    ------
+    ConfigError
+        If the file is missing, not TOML, or any key or value is invalid.
+    """
+    p = Path(path)
+    try:
+        text = p.read_bytes().decode("utf-8")
+    except FileNotFoundError:
+        raise ConfigError(f"{p}: config file not found") from None
+    except IsADirectoryError:
+        raise ConfigError(f"{p}: is a folder, not a config file") from None
+    except UnicodeDecodeError:
+        raise ConfigError(f"{p}: not a text (UTF-8) TOML file") from None
+    except OSError as exc:
+        raise ConfigError(f"{p}: cannot read ({exc.strerror})") from None
+    try:
+        data = tomllib.loads(text)
+    except tomllib.TOMLDecodeError as exc:
+        raise ConfigError(f"{p}: not valid TOML ({exc})") from None
+    try:
+        return parse_config(data, source=str(p))
+    except ConfigError as exc:
+        raise ConfigError(f"{p}: {exc}") from None
+
+
+def catalog_options(path: str | Path) -> tuple[dict[str, Any], str]:
+    """The ``[catalog]`` overrides and the spacing mode of a config file."""
+    cfg = load_config(path)
+    return dict(cfg.catalog), cfg.model.spacing
+
+
+def _table(data: Mapping[str, Any], key: str) -> dict[str, Any]:
+    v = data.get(key, {})
+    if not isinstance(v, Mapping):
+        raise ConfigError(f"[{key}] must be a table")
+    return dict(v)
+
+
+def _choice(where: str, value: Any, choices: tuple[str, ...]) -> str:
+    if value not in choices:
+        raise ConfigError(f"{where}: must be one of {', '.join(map(repr, choices))}, got {value!r}")
+    return value
+
+
+def _bool(where: str, value: Any) -> bool:
+    if not isinstance(value, bool):
+        raise ConfigError(f"{where}: must be true or false, got {value!r}")
+    return value
+
+
+def _int(where: str, value: Any, low: int) -> int:
+    if isinstance(value, bool) or not isinstance(value, int) or value < low:
+        raise ConfigError(f"{where}: must be a whole number >= {low}, got {value!r}")
+    return value
+
+
+def _float(where: str, value: Any, low: float = 0.0) -> float:
+    if isinstance(value, bool) or not isinstance(value, (int, float)) or not np.isfinite(value) \
+            or value <= low:
+        raise ConfigError(f"{where}: must be a number > {low}, got {value!r}")
+    return float(value)
+
+
+def parse_config(data: Mapping[str, Any], *, source: str = "<config>") -> RunConfig:
+    """Validate config data (as from :func:`tomllib.loads`)."""
+    if not isinstance(data, Mapping):
+        raise ConfigError("the config must be a TOML document of tables")
+    unknown = set(data) - {"model", "priors", "sampler", "catalog"}
+    if unknown:
+        raise ConfigError(f"unknown table(s) {', '.join(sorted(map(str, unknown)))}; "
+                          f"use [model], [catalog], [priors], [sampler]")
+    model = _parse_model(_table(data, "model"))
+    catalog = _parse_catalog(_table(data, "catalog"))
+    priors = _parse_priors(_table(data, "priors"), model)
+    sampler_tab = _table(data, "sampler")
+    known = set(SamplerOptions.__dataclass_fields__)
+    bad = set(sampler_tab) - known
+    if bad:
+        raise ConfigError(f"sampler.{sorted(bad)[0]}: unknown key; known: {', '.join(sorted(known))}")
+    s = SamplerOptions()
+    kw: dict[str, Any] = {}
+    for k, v in sampler_tab.items():
+        if k in ("walkers", "max_steps", "check_every"):
+            kw[k] = _int(f"sampler.{k}", v, 1)
+        elif k == "seed":
+            kw[k] = _int("sampler.seed", v, 0)
+        elif k == "moves":
+            kw[k] = _choice("sampler.moves", v, ("de", "stretch"))
+        else:
+            kw[k] = _float(f"sampler.{k}", v)
+    s = replace(s, **kw)
+    cfg = RunConfig(model=model, priors=priors, sampler=s, catalog=catalog, source=source)
+    _check_sampler(s, len(cfg.sampled))
+    return cfg
+
+
+def _check_sampler(s: SamplerOptions, ndim: int) -> None:
+    if s.walkers < 2 * max(ndim, 1):
+        raise ConfigError(f"sampler.walkers: need at least twice the number of sampled "
+                          f"parameters ({2 * ndim}), got {s.walkers}")
+    if s.walkers % 2:
+        raise ConfigError(f"sampler.walkers: must be even, got {s.walkers}")
+    if s.max_steps < 10:
+        raise ConfigError(f"sampler.max_steps: must be at least 10, got {s.max_steps}")
+
+
+def _parse_model(tab: dict[str, Any]) -> ModelOptions:
+    known = set(ModelOptions.__dataclass_fields__)
+    bad = set(tab) - known
+    if bad:
+        raise ConfigError(f"model.{sorted(bad)[0]}: unknown key; known: {', '.join(sorted(known))}")
+    kw: dict[str, Any] = {}
+    for k, v in tab.items():
+        where = f"model.{k}"
+        if k == "diffusion":
+            kw[k] = _choice(where, v, DIFFUSION_MODES)
+        elif k == "spacing":
+            kw[k] = _choice(where, v, ("mst", "nearest"))
+        elif k == "fragment_shape":
+            kw[k] = _choice(where, v, ("square", "disk"))
+        elif k == "growth_constraint":
+            kw[k] = _choice(where, v, ("soft", "hard"))
+        elif k in ("use_spacings", "use_masses"):
+            kw[k] = _bool(where, v)
+        elif k in ("mu_gas", "growth_width_dex"):
+            kw[k] = _float(where, v)
+        elif k == "growth_time_max":
+            try:
+                q = parse_quantity(v, name=where, unit=u.yr)
+            except ValueError as exc:
+                raise ConfigError(str(exc)) from None
+            val = float(np.asarray(q.value))
+            if not (np.isfinite(val) and val > 0):
+                raise ConfigError(f"{where}: must be a positive time, got {v!r}")
+            kw[k] = val
+    m = ModelOptions(**kw)
+    if not (m.use_spacings or m.use_masses):
+        raise ConfigError("model: at least one of use_spacings and use_masses must be true")
+    return m
+
+
+def _parse_catalog(tab: dict[str, Any]) -> dict[str, Any]:
+    bad = [k for k in tab if k not in CATALOG_KEYS]
+    if bad:
+        raise ConfigError(f"catalog.{bad[0]}: unknown key; known: {', '.join(CATALOG_KEYS)}")
+    for k, v in tab.items():
+        if isinstance(v, bool) or not isinstance(v, (str, int, float)):
+            raise ConfigError(f"catalog.{k}: expected a number or a string with a unit, got {v!r}")
+    return tab
+
+
+def _parse_priors(tab: dict[str, Any], model: ModelOptions) -> dict[str, Prior]:
+    for k in tab:
+        if k not in PARAMETERS:
+            raise ConfigError(f"priors.{k}: unknown parameter; known: {', '.join(PARAMETERS)}")
+    mode = model.diffusion
+    needs = {"mass_to_flux", "surface_density", "temperature"}
+    if mode == "ionization":
+        needs.add("ionization")
+        forbidden = {"eta_ad", "eta_ohm"}
+    elif mode == "free":
+        needs |= {"eta_ad", "eta_ohm"}
+        forbidden = {"ionization"}
+    else:
+        forbidden = {"ionization", "eta_ad", "eta_ohm"}
+    for k in sorted(forbidden & set(tab)):
+        raise ConfigError(f"priors.{k}: not used with model.diffusion = {mode!r} "
+                          f"({'eta_ad and eta_ohm replace ionization' if mode == 'free' else ''}"
+                          f"{'ionization sets both diffusivities' if mode == 'ionization' else ''}"
+                          f"{'flux freezing has no diffusivities' if mode == 'ideal' else ''}); remove it")
+    missing = sorted(needs - set(tab))
+    if missing:
+        raise ConfigError(f"priors.{missing[0]}: required with model.diffusion = {mode!r}; give a value "
+                          f"or a distribution")
+    has_kep = {"stellar_mass", "radius"} & set(tab)
+    if "kappa" in tab and has_kep:
+        raise ConfigError("priors.kappa: give either kappa or stellar_mass with radius, not both")
+    if has_kep and len(has_kep) == 1:
+        other = ({"stellar_mass", "radius"} - has_kep).pop()
+        raise ConfigError(f"priors.{other}: required with priors.{has_kep.pop()} (Keplerian kappa)")
+    if "kappa" not in tab and not has_kep:
+        raise ConfigError('priors.kappa: rotation not given; set stellar_mass and radius (Keplerian '
+                          'disk) or kappa (use kappa = { value = "0 1/s" } for a non-rotating sheet)')
+    merged = dict(DEFAULT_PRIORS)
+    merged.update(tab)
+    return {k: parse_prior(k, v) for k, v in merged.items()}

@@ -1,0 +1,302 @@
+"""Prior distributions of the fit, built from the run config's ``[priors]`` table.
+
+Every sampled parameter is positive and is sampled as u = ln x; the
+log-density :meth:`Prior.logpdf_ln` therefore includes the Jacobian
+``+ ln x``. Values are held in each parameter's canonical unit (see
+:data:`PARAMETERS`).
+"""
+
+from __future__ import annotations
+
+from collections.abc import Mapping
+from dataclasses import dataclass, field
+from typing import Any
+
+import astropy.units as u
+import numpy as np
+from scipy import special, stats
+
+from .errors import ConfigError
+from .units import parse_quantity
+
+__all__ = ["ParamInfo", "PARAMETERS", "Prior", "parse_prior", "DISTRIBUTIONS"]
+
+
+@dataclass(frozen=True)
+class ParamInfo:
+    """What a config key means: canonical unit, label for plots, whether 0 is allowed."""
+
+    unit: str
+    label: str
+    allow_zero: bool = False
+
+
+#: config key -> canonical unit ("" = dimensionless; scatters in dex), plot label
+PARAMETERS: dict[str, ParamInfo] = {
+    "mass_to_flux": ParamInfo("", r"$\mu_0$"),
+    "ionization": ParamInfo("", r"$x_e$"),
+    "eta_ad": ParamInfo("cm2 / s", r"$\eta_\mathrm{AD}$ [cm$^2$ s$^{-1}$]"),
+    "eta_ohm": ParamInfo("cm2 / s", r"$\eta_\mathrm{O}$ [cm$^2$ s$^{-1}$]"),
+    "surface_density": ParamInfo("g / cm2", r"$\Sigma$ [g cm$^{-2}$]"),
+    "temperature": ParamInfo("K", r"$T$ [K]"),
+    "stellar_mass": ParamInfo("solMass", r"$M_\star$ [M$_\odot$]"),
+    "radius": ParamInfo("au", r"$r$ [au]"),
+    "kappa": ParamInfo("1 / s", r"$\kappa$ [s$^{-1}$]", allow_zero=True),
+    "external_pressure": ParamInfo("dyn / cm2", r"$P_\mathrm{ext}$ [dyn cm$^{-2}$]", allow_zero=True),
+    "spacing_scatter": ParamInfo("dex", r"$\sigma_\lambda$ [dex]", allow_zero=True),
+    "mass_scatter": ParamInfo("dex", r"$\sigma_M$ [dex]", allow_zero=True),
+    "spacing_calibration": ParamInfo("", r"$f_\lambda$"),
+    "mass_calibration": ParamInfo("", r"$f_M$"),
+}
+
+#: distribution name -> its keys (all required)
+DISTRIBUTIONS: dict[str, tuple[str, ...]] = {
+    "uniform": ("low", "high"),
+    "loguniform": ("low", "high"),
+    "normal": ("mean", "sd"),
+    "lognormal": ("median", "sigma_dex"),
+    "halfnormal": ("scale",),
+    "truncnormal": ("mean", "sd", "low", "high"),
+}
+
+_LN10 = np.log(10.0)
+
+
+@dataclass(frozen=True)
+class Prior:
+    """A fixed value or a distribution for one parameter, in its canonical unit.
+
+    Attributes
+    ----------
+    name : str
+        Config key.
+    dist : str
+        ``"fixed"`` or a key of :data:`DISTRIBUTIONS`.
+    args : dict
+        Distribution arguments (floats in the canonical unit; ``sigma_dex`` in dex).
+    """
+
+    name: str
+    dist: str
+    args: Mapping[str, float] = field(default_factory=dict)
+
+    @property
+    def fixed(self) -> bool:
+        return self.dist == "fixed"
+
+    @property
+    def value(self) -> float:
+        """The fixed value (only for fixed priors)."""
+        return float(self.args["value"])
+
+    def support(self) -> tuple[float, float]:
+        """(low, high) of the support in x (positive part only)."""
+        a = self.args
+        if self.dist in ("uniform", "loguniform", "truncnormal"):
+            return max(a["low"], 0.0), a["high"]
+        if self.fixed:
+            return a["value"], a["value"]
+        return 0.0, np.inf
+
+    def logpdf_ln(self, lnx: np.ndarray) -> np.ndarray:
+        """log density of u = ln x (unnormalised constants dropped), -inf outside support."""
+        lnx = np.asarray(lnx, dtype=float)
+        with np.errstate(over="ignore", invalid="ignore"):
+            x = np.exp(lnx)
+        a = self.args
+        d = self.dist
+        with np.errstate(divide="ignore", invalid="ignore", over="ignore"):
+            if d == "uniform":
+                lp = np.where((x >= a["low"]) & (x <= a["high"]), lnx, -np.inf)
+            elif d == "loguniform":
+                lp = np.where((x >= a["low"]) & (x <= a["high"]), 0.0, -np.inf)
+            elif d == "normal":
+                lp = -0.5 * ((x - a["mean"]) / a["sd"]) ** 2 + lnx
+            elif d == "truncnormal":
+                inside = (x >= a["low"]) & (x <= a["high"])
+                lp = np.where(inside, -0.5 * ((x - a["mean"]) / a["sd"]) ** 2 + lnx, -np.inf)
+            elif d == "lognormal":
+                s = a["sigma_dex"] * _LN10
+                lp = -0.5 * ((lnx - np.log(a["median"])) / s) ** 2
+            elif d == "halfnormal":
+                lp = -0.5 * (x / a["scale"]) ** 2 + lnx
+            else:  # pragma: no cover - fixed priors are not sampled
+                raise ValueError(f"prior {self.name}: a fixed value has no density")
+        return np.where(np.isfinite(lnx), lp, -np.inf)
+
+    def ppf(self, q) -> np.ndarray:
+        """Quantile function in x (used for starting points and prior widths)."""
+        q = np.asarray(q, dtype=float)
+        a = self.args
+        d = self.dist
+        if d == "fixed":
+            return np.full(q.shape, a["value"])
+        if d == "uniform":
+            return a["low"] + q * (a["high"] - a["low"])
+        if d == "loguniform":
+            return np.exp(np.log(a["low"]) + q * (np.log(a["high"]) - np.log(a["low"])))
+        if d == "lognormal":
+            return a["median"] * 10 ** (a["sigma_dex"] * special.ndtri(q))
+        if d == "halfnormal":
+            return a["scale"] * special.ndtri(0.5 + 0.5 * q)
+        # normal restricted to x > 0, truncnormal to [low, high] (and x > 0)
+        lo = a.get("low", 0.0)
+        lo = max(lo, 0.0)
+        hi = a.get("high", np.inf)
+        alpha, beta = (lo - a["mean"]) / a["sd"], (hi - a["mean"]) / a["sd"]
+        return stats.truncnorm.ppf(q, alpha, beta, loc=a["mean"], scale=a["sd"])
+
+    def sample(self, rng: np.random.Generator, n: int) -> np.ndarray:
+        """n draws in x."""
+        return self.ppf(rng.uniform(1e-9, 1.0 - 1e-9, size=n))
+
+    def describe(self) -> str:
+        """Human-readable description with units, e.g. ``loguniform(0.1, 10)``."""
+        unit = PARAMETERS[self.name].unit if self.name in PARAMETERS else ""
+        unit = f" {unit}" if unit and unit != "dex" else ""
+        a = self.args
+        if self.fixed:
+            return f"fixed at {a['value']:.4g}{unit}"
+        if self.dist == "lognormal":
+            return f"lognormal(median {a['median']:.4g}{unit}, {a['sigma_dex']:.3g} dex)"
+        if self.name in ("spacing_scatter", "mass_scatter"):
+            unit = " dex"
+        inner = ", ".join(f"{k} {v:.4g}" for k, v in a.items())
+        return f"{self.dist}({inner}){unit}"
+
+    def to_config(self) -> dict[str, Any]:
+        """The resolved TOML entry (numbers in the canonical unit, units spelled out)."""
+        unit = PARAMETERS[self.name].unit if self.name in PARAMETERS else ""
+
+        def q(v: float, key: str = "") -> Any:
+            if key == "sigma_dex" or unit in ("", "dex"):
+                return float(v)
+            return f"{float(v):.17g} {unit}"
+
+        if self.fixed:
+            return {"value": q(self.args["value"])}
+        out: dict[str, Any] = {"dist": self.dist}
+        for k, v in self.args.items():
+            key = "scale_dex" if (unit == "dex" and k == "scale") else k
+            out[key] = q(v, k)
+        return out
+
+
+def _number(name: str, key: str, value: Any, unit: str, *, allow_zero: bool) -> float:
+    where = f"priors.{name}.{key}" if key else f"priors.{name}"
+    if unit in ("", "dex"):
+        if isinstance(value, bool) or not isinstance(value, (int, float, str)):
+            raise ConfigError(f"{where}: expected a number, got {value!r}")
+        if isinstance(value, str):
+            try:
+                q = u.Quantity(value)
+            except (TypeError, ValueError):
+                raise ConfigError(f"{where}: cannot read {value!r} as a number") from None
+            if q.unit != u.dimensionless_unscaled and not (unit == "dex" and q.unit == u.dex):
+                raise ConfigError(f"{where}: expected a plain number, got unit {q.unit}")
+            v = float(q.value)
+        else:
+            v = float(value)
+    else:
+        if isinstance(value, bool) or not isinstance(value, (int, float, str)):
+            raise ConfigError(f'{where}: expected a number with a unit such as "1 {unit}", '
+                              f"got {value!r}")
+        try:
+            v = float(parse_quantity(str(value) if isinstance(value, str) else value,
+                                     name=where, unit=unit).value)
+        except ValueError as exc:
+            raise ConfigError(str(exc)) from None
+    if not np.isfinite(v):
+        raise ConfigError(f"{where}: must be finite, got {value!r}")
+    if v < 0 or (v == 0 and not allow_zero):
+        raise ConfigError(f"{where}: must be {'non-negative' if allow_zero else 'positive'}, "
+                          f"got {value!r}")
+    return v
+
+
+def parse_prior(name: str, entry: Any) -> Prior:
+    """Build a :class:`Prior` from one ``[priors]`` entry.
+
+    Parameters
+    ----------
+    name : str
+        Config key (one of :data:`PARAMETERS`).
+    entry : str, number or table
+        A fixed value (``"0.3 solMass"``, ``{ value = "0.3 solMass" }``) or a
+        table with ``dist`` and its keys (see :data:`DISTRIBUTIONS`).
+
+    Raises
+    ------
+    ConfigError
+        Unknown parameter or distribution, missing or unknown keys, wrong
+        units, or a prior without support (e.g. low >= high).
+    """
+    if name not in PARAMETERS:
+        raise ConfigError(f"priors.{name}: unknown parameter; known: {', '.join(PARAMETERS)}")
+    info = PARAMETERS[name]
+    unit = info.unit
+    if not isinstance(entry, Mapping):
+        entry = {"value": entry}
+    entry = dict(entry)
+    if "value" in entry:
+        extra = set(entry) - {"value"}
+        if extra:
+            raise ConfigError(f"priors.{name}: a fixed value takes no other keys "
+                              f"(got {', '.join(sorted(extra))})")
+        return Prior(name, "fixed", {"value": _number(name, "value", entry["value"], unit,
+                                                       allow_zero=info.allow_zero)})
+    dist = entry.pop("dist", None)
+    if dist is None:
+        raise ConfigError(f"priors.{name}: give either value = ... or dist = one of "
+                          f"{', '.join(DISTRIBUTIONS)}")
+    if dist not in DISTRIBUTIONS:
+        raise ConfigError(f"priors.{name}: unknown dist {dist!r}; use one of {', '.join(DISTRIBUTIONS)}")
+    if dist == "halfnormal" and "scale_dex" in entry:
+        if unit != "dex":
+            raise ConfigError(f"priors.{name}: scale_dex is only for the scatter parameters; use scale")
+        entry["scale"] = entry.pop("scale_dex")
+    needed = DISTRIBUTIONS[dist]
+    missing = [k for k in needed if k not in entry]
+    unknown = [k for k in entry if k not in needed]
+    if missing:
+        raise ConfigError(f"priors.{name}: {dist} needs {', '.join(needed)}; missing {', '.join(missing)}")
+    if unknown:
+        raise ConfigError(f"priors.{name}: unknown key(s) {', '.join(unknown)} for {dist} "
+                          f"(it takes {', '.join(needed)})")
+    args: dict[str, float] = {}
+    for k in needed:
+        if k == "sigma_dex":
+            args[k] = _number(name, k, entry[k], "", allow_zero=False)
+        elif k == "mean":
+            args[k] = _mean(name, entry[k], unit)
+        else:
+            args[k] = _number(name, k, entry[k], unit, allow_zero=k in ("low",))
+    if "low" in args and not args["low"] < args["high"]:
+        raise ConfigError(f"priors.{name}: low must be below high (got {args['low']:.4g} >= "
+                          f"{args['high']:.4g}); the prior has no support")
+    if dist == "loguniform" and args["low"] <= 0:
+        raise ConfigError(f"priors.{name}: loguniform needs low > 0")
+    if dist in ("normal", "truncnormal") and args["sd"] <= 0:
+        raise ConfigError(f"priors.{name}: sd must be positive")
+    if dist == "truncnormal" and args["high"] <= 0:
+        raise ConfigError(f"priors.{name}: the truncated range has no positive values")
+    if dist == "normal" and args["mean"] + 8 * args["sd"] <= 0:
+        raise ConfigError(f"priors.{name}: the normal prior has essentially no mass at positive "
+                          f"values; the parameter must be positive")
+    return Prior(name, dist, args)
+
+
+def _mean(name: str, value: Any, unit: str) -> float:
+    """A mean may be any finite number (negative allowed, e.g. a wide normal)."""
+    if unit in ("", "dex"):
+        v = float(value) if isinstance(value, (int, float)) and not isinstance(value, bool) else None
+        if v is None:
+            raise ConfigError(f"priors.{name}.mean: expected a number, got {value!r}")
+    else:
+        try:
+            v = float(parse_quantity(value, name=f"priors.{name}.mean", unit=unit).value)
+        except ValueError as exc:
+            raise ConfigError(str(exc)) from None
+    if not np.isfinite(v):
+        raise ConfigError(f"priors.{name}.mean: must be finite")
+    return v

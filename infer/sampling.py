@@ -1,0 +1,266 @@
+"""The emcee driver: start at the MAP, sample in checkpointed chunks, stop on convergence.
+
+* Reproducible: ``seed`` fixes the optimiser's starts, the initial ball and
+  emcee's random state; the random state is saved with every chunk, so a
+  resumed run continues exactly as an uninterrupted one would.
+* Crash-safe: chunks are appended to ``chain.h5`` atomically
+  (:mod:`infer.chainfile`); a killed run loses at most one chunk.
+* Stops once the chain is longer than ``tau_factor`` integrated
+  autocorrelation times and the estimate changed by less than ``tau_rtol``
+  since the previous check (emcee's documented recipe), or at ``max_steps``
+  with ``converged = False``.
+"""
+
+from __future__ import annotations
+
+import time
+from collections.abc import Callable
+from dataclasses import dataclass
+from pathlib import Path
+
+import numpy as np
+from scipy import optimize
+
+from .chainfile import ChainData, append_chunk, create_chain, read_chain
+from .config import SamplerOptions
+from .errors import ChainError, InferError
+
+__all__ = ["SampleResult", "find_map", "initial_ball", "make_moves", "run_sampler", "autocorr_times"]
+
+
+@dataclass(frozen=True)
+class SampleResult:
+    """Outcome of :func:`run_sampler`.
+
+    Attributes
+    ----------
+    chain : ChainData
+    tau : ndarray (ndim,)
+        Final integrated autocorrelation time per parameter, steps.
+    converged : bool
+    wall_time : float
+        Seconds spent sampling in this call.
+    resumed_from : int
+        Steps that were already in the file.
+    """
+
+    chain: ChainData
+    tau: np.ndarray
+    converged: bool
+    wall_time: float
+    resumed_from: int
+
+
+def autocorr_times(chain: np.ndarray) -> np.ndarray:
+    """Integrated autocorrelation time per parameter (emcee, Sokal window c = 5).
+
+    Parameters
+    ----------
+    chain : ndarray (n_steps, n_walkers, n_dim)
+    """
+    import emcee
+
+    if chain.shape[0] < 4:
+        return np.full(chain.shape[2], np.inf)
+    return np.asarray(emcee.autocorr.integrated_time(chain, c=5, tol=0, quiet=True), dtype=float)
+
+
+def find_map(log_prob: Callable, x0s: np.ndarray) -> np.ndarray:
+    """Maximum a posteriori point from several starts (Nelder-Mead, then Powell).
+
+    Parameters
+    ----------
+    log_prob : callable
+        Vectorized log-posterior, (n, ndim) -> (n,).
+    x0s : ndarray (n_starts, ndim)
+        Starting points (e.g. prior draws); starts with -inf are skipped.
+    """
+    def nlp(x):
+        v = float(log_prob(x[None, :])[0])
+        return 1e300 if not np.isfinite(v) else -v
+
+    lp0 = log_prob(x0s)
+    order = np.argsort(-lp0)
+    best_x, best_f = None, np.inf
+    for i in order[: max(1, min(6, int(np.isfinite(lp0).sum())))]:
+        if not np.isfinite(lp0[i]):
+            continue
+        r = optimize.minimize(nlp, x0s[i], method="Nelder-Mead",
+                              options={"maxiter": 400 * x0s.shape[1], "xatol": 1e-4, "fatol": 1e-6})
+        r = optimize.minimize(nlp, r.x, method="Powell", options={"xtol": 1e-4, "ftol": 1e-8})
+        if r.fun < best_f:
+            best_x, best_f = r.x, r.fun
+    if best_x is None:
+        raise InferError("no starting point with a finite posterior: the priors exclude every "
+                         "growing mode, or the data are impossible under the model; widen the priors")
+    return np.asarray(best_x, dtype=float)
+
+
+def initial_ball(log_prob: Callable, centre: np.ndarray, scale: np.ndarray, n_walkers: int,
+                 rng: np.random.Generator, *, max_tries: int = 100) -> np.ndarray:
+    """Walkers in a small Gaussian ball around ``centre``, each with finite log-probability."""
+    ndim = centre.size
+    p = centre + scale * rng.standard_normal((n_walkers, ndim))
+    lp = log_prob(p)
+    for _ in range(max_tries):
+        bad = ~np.isfinite(lp)
+        if not bad.any():
+            return p
+        p[bad] = centre + scale * rng.standard_normal((int(bad.sum()), ndim))
+        lp[bad] = log_prob(p[bad])
+        scale = scale * 0.7
+    raise InferError("could not place the walkers around the MAP point with finite posterior; "
+                     "the posterior may sit on a prior edge; widen the priors")
+
+
+def make_moves(kind: str):
+    """emcee moves: ``"de"`` (DEMove 0.8 + DESnookerMove 0.2) or ``"stretch"``."""
+    import emcee
+
+    if kind == "stretch":
+        return emcee.moves.StretchMove()
+    if kind == "de":
+        return [(emcee.moves.DEMove(), 0.8), (emcee.moves.DESnookerMove(), 0.2)]
+    raise InferError(f"sampler.moves: unknown {kind!r}; use 'de' or 'stretch'")
+
+
+def _start(log_prob, prior_draws, ndim, n_walkers, seed):
+    rng = np.random.default_rng([seed, 1])
+    x_map = find_map(log_prob, prior_draws(rng, 64))
+    # ball scale: a small fraction of the spread of the prior, in ln-space
+    spread = np.std(prior_draws(rng, 256), axis=0)
+    spread = np.where(np.isfinite(spread) & (spread > 0), spread, 1.0)
+    p0 = initial_ball(log_prob, x_map, 1e-3 * spread, n_walkers, rng)
+    return x_map, p0
+
+
+def run_sampler(
+    log_prob: Callable,
+    *,
+    names: tuple[str, ...],
+    prior_draws: Callable[[np.random.Generator, int], np.ndarray],
+    options: SamplerOptions,
+    chain_path: str | Path,
+    run_hash: str,
+    resume: bool = False,
+    progress: bool = True,
+    info: dict | None = None,
+) -> SampleResult:
+    """Sample ``log_prob`` with emcee, checkpointing into ``chain_path``.
+
+    Parameters
+    ----------
+    log_prob : callable
+        Vectorized log-posterior (n, ndim) -> (n,), picklable.
+    names : tuple of str
+        Parameter names (ndim of them).
+    prior_draws : callable
+        ``prior_draws(rng, n) -> (n, ndim)`` draws from the prior (for the MAP starts).
+    options : SamplerOptions
+    chain_path : path
+    run_hash : str
+        Stored in the file; a resume refuses a file with another hash.
+    resume : bool
+        Continue the chain in ``chain_path`` towards ``options.max_steps``.
+    progress : bool
+        Show a tqdm progress bar with the current autocorrelation estimate.
+    info : dict
+        Extra metadata stored in the file.
+    """
+    import emcee
+
+    chain_path = Path(chain_path)
+    ndim = len(names)
+    n_walkers = options.walkers
+    t_start = time.perf_counter()
+    if resume and chain_path.exists():
+        data = read_chain(chain_path)
+        if data.run_hash != run_hash:
+            raise ChainError(f"{chain_path}: the saved chain belongs to a different catalog or "
+                             f"config; use another --out folder, or fit again without --resume")
+        if data.chain.shape[1] != n_walkers or data.names != tuple(names):
+            raise ChainError(f"{chain_path}: the saved chain has {data.chain.shape[1]} walkers and "
+                             f"parameters {list(data.names)}; they cannot change on --resume")
+        if data.iteration == 0 or data.random_state is None:
+            resume = False
+    else:
+        resume = False
+    if not resume:
+        x_map, p0 = _start(log_prob, prior_draws, ndim, n_walkers, options.seed)
+        meta = dict(info or {})
+        meta.update(seed=options.seed, moves=options.moves, map=[float(v) for v in x_map],
+                    initial=p0.tolist())
+        create_chain(chain_path, names=names, n_walkers=n_walkers, run_hash=run_hash, info=meta)
+        data = read_chain(chain_path)
+        state = emcee.State(p0, log_prob=log_prob(p0),
+                            random_state=np.random.RandomState(options.seed).get_state())
+        tau_history: list = []
+    else:
+        state = emcee.State(data.chain[-1], log_prob=data.log_prob[-1], random_state=data.random_state)
+        tau_history = list(data.tau_history)
+    resumed_from = data.iteration
+    accepted = np.array(data.accepted, dtype=float)
+
+    iteration = data.iteration
+    converged, tau = _converged(tau_history, iteration, options)
+    bar = None
+    if progress and iteration < options.max_steps and not converged:
+        from tqdm.auto import tqdm
+
+        bar = tqdm(total=options.max_steps, initial=iteration, unit="step", desc="sampling",
+                   dynamic_ncols=True, leave=True)
+    pending_c: list[np.ndarray] = []
+    pending_l: list[np.ndarray] = []
+    try:
+        while iteration < options.max_steps and not converged:
+            # one block of check_every steps, then a convergence check
+            n = min(options.max_steps - iteration, options.check_every)
+            sampler = emcee.EnsembleSampler(n_walkers, ndim, log_prob, vectorize=True,
+                                            moves=make_moves(options.moves))
+            sampler.random_state = state.random_state
+            for st in sampler.sample(state, iterations=n, store=True,
+                                     skip_initial_state_check=True):
+                state = st
+                if bar is not None:
+                    bar.update(1)
+            pending_c.append(sampler.get_chain())
+            pending_l.append(sampler.get_log_prob())
+            accepted = accepted + sampler.backend.accepted
+            iteration += n
+            full = np.concatenate([data.chain, *pending_c])
+            tau = autocorr_times(full)
+            tau_history.append([iteration, [float(t) for t in tau]])
+            converged, tau = _converged(tau_history, iteration, options)
+            # checkpoint: every ~10% of the chain (at least every block), and at the end
+            n_pending = sum(c.shape[0] for c in pending_c)
+            if converged or iteration >= options.max_steps or n_pending >= max(
+                    options.check_every, data.iteration // 10):
+                coords = np.concatenate(pending_c)
+                lps = np.concatenate(pending_l)
+                append_chunk(chain_path, coords=coords, log_prob=lps, accepted=accepted,
+                             random_state=state.random_state, tau_history=tau_history)
+                data = ChainData(full, np.concatenate([data.log_prob, lps]), accepted, data.names,
+                                 data.run_hash, state.random_state, tau_history, data.info)
+                pending_c, pending_l = [], []
+            if bar is not None:
+                bar.set_postfix_str(f"tau~{np.max(tau):.0f} steps, need {options.tau_factor:.0f}x")
+    finally:
+        if bar is not None:
+            bar.close()
+    data = read_chain(chain_path)
+    if not tau_history:
+        tau = autocorr_times(data.chain)
+    return SampleResult(chain=data, tau=np.asarray(tau, dtype=float), converged=bool(converged),
+                        wall_time=time.perf_counter() - t_start, resumed_from=resumed_from)
+
+
+def _converged(tau_history: list, iteration: int, options: SamplerOptions):
+    if not tau_history:
+        return False, np.array([np.inf])
+    tau = np.asarray(tau_history[-1][1], dtype=float)
+    if len(tau_history) < 2 or not np.all(np.isfinite(tau)):
+        return False, tau
+    prev = np.asarray(tau_history[-2][1], dtype=float)
+    long_enough = np.all(tau * options.tau_factor < iteration)
+    stable = np.all(np.abs(prev - tau) / tau < options.tau_rtol)
+    return bool(long_enough and stable), tau
