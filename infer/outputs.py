@@ -28,6 +28,7 @@ def atomic_write_bytes(path: str | Path, data: bytes) -> None:
         raise InferError(f"{path.parent}: cannot write here ({exc.strerror}); choose another "
                          f"folder or free some space") from None
     try:
+        os.chmod(tmp, 0o666 & ~_umask())
         with os.fdopen(fd, "wb") as fh:
             fh.write(data)
             fh.flush()
@@ -39,6 +40,12 @@ def atomic_write_bytes(path: str | Path, data: bytes) -> None:
         except OSError:
             pass
         raise InferError(f"{path}: cannot write ({exc.strerror}); earlier files are unchanged") from None
+
+
+def _umask() -> int:
+    mask = os.umask(0)
+    os.umask(mask)
+    return mask
 
 
 def atomic_write_text(path: str | Path, text: str) -> None:

@@ -207,8 +207,11 @@ def run_sampler(
     if progress and iteration < options.max_steps and not converged:
         from tqdm.auto import tqdm
 
+        import sys
+
+        interactive = sys.stderr.isatty()
         bar = tqdm(total=options.max_steps, initial=iteration, unit="step", desc="sampling",
-                   dynamic_ncols=True, leave=True)
+                   dynamic_ncols=True, leave=True, mininterval=0.2 if interactive else 10.0)
     pending_c: list[np.ndarray] = []
     pending_l: list[np.ndarray] = []
     try:
