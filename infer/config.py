@@ -29,18 +29,16 @@ __all__ = [
     "load_config",
     "parse_config",
     "catalog_options",
-    "CATALOG_KEYS",
     "DIFFUSION_MODES",
 ]
 
 DIFFUSION_MODES = ("ionization", "free", "ideal")
 
-#: metadata keys a config's [catalog] table may set (see the catalog contract)
-CATALOG_KEYS = (
-    "distance", "inclination", "position_angle", "wavelength", "frequency", "dust_temperature",
-    "dust_temperature_err", "dust_opacity", "dust_opacity_err", "opacity_wavelength",
-    "opacity_index", "gas_to_dust", "center_ra", "center_dec",
-)
+def _catalog_keys() -> tuple[str, ...]:
+    from .catalog_meta import OVERRIDE_KEYS
+
+    return tuple(OVERRIDE_KEYS)
+
 
 #: priors used when the config does not mention them
 DEFAULT_PRIORS: dict[str, Any] = {
@@ -307,11 +305,19 @@ def _parse_model(tab: dict[str, Any]) -> ModelOptions:
 
 
 def _parse_catalog(tab: dict[str, Any]) -> dict[str, Any]:
-    bad = [k for k in tab if k not in CATALOG_KEYS]
+    keys = _catalog_keys()
+    bad = [k for k in tab if k not in keys]
     if bad:
-        raise ConfigError(f"catalog.{bad[0]}: unknown key; known: {', '.join(CATALOG_KEYS)}")
+        raise ConfigError(f"catalog.{bad[0]}: unknown key; known: {', '.join(keys)}")
     for k, v in tab.items():
-        if isinstance(v, bool) or not isinstance(v, (str, int, float)):
+        if k == "units":
+            if not isinstance(v, Mapping) or not all(isinstance(x, str) for x in v.values()):
+                raise ConfigError('catalog.units: expected a table of column = "unit", '
+                                  'e.g. units = { mass = "solMass" }')
+        elif k == "exclude":
+            if not isinstance(v, list) or not all(isinstance(x, (str, int)) for x in v):
+                raise ConfigError('catalog.exclude: expected a list of clump ids, e.g. ["C3", "C7"]')
+        elif isinstance(v, bool) or not isinstance(v, (str, int, float)):
             raise ConfigError(f"catalog.{k}: expected a number or a string with a unit, got {v!r}")
     return tab
 

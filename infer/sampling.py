@@ -25,7 +25,7 @@ from .chainfile import ChainData, append_chunk, create_chain, read_chain
 from .config import SamplerOptions
 from .errors import ChainError, InferError
 
-__all__ = ["SampleResult", "find_map", "initial_ball", "make_moves", "run_sampler", "autocorr_times"]
+__all__ = ["SampleResult", "find_map", "find_modes", "initial_ball", "make_moves", "run_sampler", "autocorr_times"]
 
 
 @dataclass(frozen=True)
@@ -65,35 +65,62 @@ def autocorr_times(chain: np.ndarray) -> np.ndarray:
     return np.asarray(emcee.autocorr.integrated_time(chain, c=5, tol=0, quiet=True), dtype=float)
 
 
-def find_map(log_prob: Callable, x0s: np.ndarray) -> np.ndarray:
-    """Maximum a posteriori point from several starts (Nelder-Mead, then Powell).
+def find_modes(log_prob: Callable, x0s: np.ndarray, *, n_starts: int = 4,
+               keep_within: float = 5.0) -> list[tuple[float, np.ndarray]]:
+    """Local maxima of the posterior from several starts, best first.
+
+    Nelder-Mead runs from the ``n_starts`` best of the starting points; the
+    best result is polished with Powell. Distinct optima (in ln-parameter space)
+    whose log-posterior is within ``keep_within`` of the best are returned, so
+    that walkers can be started in every competitive mode (the fastest
+    wavelength is not monotonic in the mass-to-flux ratio, which makes
+    separated modes common).
 
     Parameters
     ----------
     log_prob : callable
         Vectorized log-posterior, (n, ndim) -> (n,).
-    x0s : ndarray (n_starts, ndim)
-        Starting points (e.g. prior draws); starts with -inf are skipped.
+    x0s : ndarray (n_points, ndim)
+        Candidate starting points (e.g. prior draws); -inf ones are skipped.
+
+    Returns
+    -------
+    list of (log_prob, x)
     """
     def nlp(x):
         v = float(log_prob(x[None, :])[0])
         return 1e300 if not np.isfinite(v) else -v
 
     lp0 = log_prob(x0s)
-    order = np.argsort(-lp0)
-    best_x, best_f = None, np.inf
-    for i in order[: max(1, min(6, int(np.isfinite(lp0).sum())))]:
-        if not np.isfinite(lp0[i]):
-            continue
-        r = optimize.minimize(nlp, x0s[i], method="Nelder-Mead",
-                              options={"maxiter": 400 * x0s.shape[1], "xatol": 1e-4, "fatol": 1e-6})
-        r = optimize.minimize(nlp, r.x, method="Powell", options={"xtol": 1e-4, "ftol": 1e-8})
-        if r.fun < best_f:
-            best_x, best_f = r.x, r.fun
-    if best_x is None:
+    finite = np.flatnonzero(np.isfinite(lp0))
+    if finite.size == 0:
         raise InferError("no starting point with a finite posterior: the priors exclude every "
                          "growing mode, or the data are impossible under the model; widen the priors")
-    return np.asarray(best_x, dtype=float)
+    ndim = x0s.shape[1]
+    spread = np.std(x0s[finite], axis=0) if finite.size > 1 else np.ones(ndim)
+    spread = np.where(spread > 0, spread, 1.0)
+    found: list[tuple[float, np.ndarray]] = []
+    for i in finite[np.argsort(-lp0[finite])][:n_starts]:
+        r = optimize.minimize(nlp, x0s[i], method="Nelder-Mead",
+                              options={"maxiter": 200 * ndim, "xatol": 1e-4, "fatol": 1e-6})
+        found.append((-float(r.fun), np.asarray(r.x, dtype=float)))
+    found.sort(key=lambda c: -c[0])
+    best_lp, best_x = found[0]
+    r = optimize.minimize(nlp, best_x, method="Powell", options={"xtol": 1e-4, "ftol": 1e-8})
+    if -r.fun >= best_lp:
+        found[0] = (-float(r.fun), np.asarray(r.x, dtype=float))
+    modes: list[tuple[float, np.ndarray]] = []
+    for lp, x in sorted(found, key=lambda c: -c[0]):
+        if not np.isfinite(lp) or lp < found[0][0] - keep_within:
+            continue
+        if all(np.max(np.abs(x - y) / spread) > 0.1 for _, y in modes):
+            modes.append((lp, x))
+    return modes
+
+
+def find_map(log_prob: Callable, x0s: np.ndarray) -> np.ndarray:
+    """Maximum a posteriori point (the best of :func:`find_modes`)."""
+    return find_modes(log_prob, x0s)[0][1]
 
 
 def initial_ball(log_prob: Callable, centre: np.ndarray, scale: np.ndarray, n_walkers: int,
@@ -125,13 +152,18 @@ def make_moves(kind: str):
 
 
 def _start(log_prob, prior_draws, ndim, n_walkers, seed):
+    """MAP point and initial walkers: small balls around each competitive mode."""
     rng = np.random.default_rng([seed, 1])
-    x_map = find_map(log_prob, prior_draws(rng, 64))
+    modes = find_modes(log_prob, prior_draws(rng, 64))
     # ball scale: a small fraction of the spread of the prior, in ln-space
     spread = np.std(prior_draws(rng, 256), axis=0)
     spread = np.where(np.isfinite(spread) & (spread > 0), spread, 1.0)
-    p0 = initial_ball(log_prob, x_map, 1e-3 * spread, n_walkers, rng)
-    return x_map, p0
+    modes = modes[: max(1, n_walkers // (2 * ndim + 2))]
+    counts = np.full(len(modes), n_walkers // len(modes))
+    counts[: n_walkers - counts.sum()] += 1
+    p0 = np.concatenate([initial_ball(log_prob, x, 1e-3 * spread, int(c), rng)
+                         for (_, x), c in zip(modes, counts, strict=True)])
+    return modes[0][1], p0, [(float(lp), [float(v) for v in x]) for lp, x in modes]
 
 
 def run_sampler(
@@ -186,10 +218,10 @@ def run_sampler(
     else:
         resume = False
     if not resume:
-        x_map, p0 = _start(log_prob, prior_draws, ndim, n_walkers, options.seed)
+        x_map, p0, modes = _start(log_prob, prior_draws, ndim, n_walkers, options.seed)
         meta = dict(info or {})
         meta.update(seed=options.seed, moves=options.moves, map=[float(v) for v in x_map],
-                    initial=p0.tolist())
+                    modes=modes, initial=p0.tolist())
         create_chain(chain_path, names=names, n_walkers=n_walkers, run_hash=run_hash, info=meta)
         data = read_chain(chain_path)
         state = emcee.State(p0, log_prob=log_prob(p0),

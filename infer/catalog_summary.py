@@ -1,0 +1,97 @@
+"""The ``infer check --json`` summary of a catalog's regions.
+
+Part of :mod:`infer.catalog`: statistics of spacings (au) and masses (Jupiter
+masses), warnings and exclusions, as plain JSON-ready values.
+"""
+
+from __future__ import annotations
+
+from collections.abc import Mapping
+from typing import TYPE_CHECKING, Any
+
+import astropy.units as u
+import numpy as np
+
+if TYPE_CHECKING:
+    from .catalog import Region
+
+__all__ = ["summarize"]
+
+def _stats(values: np.ndarray, suffix: str, stem: str) -> dict[str, float | None]:
+    v = np.asarray(values, dtype=float)
+    keys = ("median", "p16", "p84", "min", "max")
+    if v.size == 0:
+        return {f"{stem}_{k}_{suffix}": None for k in keys}
+    nums = (np.median(v), *np.percentile(v, [16, 84]), v.min(), v.max())
+    return {f"{stem}_{k}_{suffix}": float(x) for k, x in zip(keys, nums, strict=True)}
+
+
+def _jsonable(value: Any) -> Any:
+    if isinstance(value, u.Quantity):
+        if value.isscalar:
+            return f"{value.value:.6g} {value.unit.to_string()}".strip()
+        return [_jsonable(v) for v in value]
+    if isinstance(value, Mapping):
+        return {str(k): _jsonable(v) for k, v in value.items()}
+    if isinstance(value, (list, tuple)):
+        return [_jsonable(v) for v in value]
+    if isinstance(value, (np.floating, float)):
+        return float(value) if np.isfinite(value) else str(value)
+    if isinstance(value, (np.integer, np.bool_)):
+        return value.item()
+    if value is None or isinstance(value, (str, int, bool)):
+        return value
+    return str(value)
+
+
+def _region_summary(r: Region) -> dict[str, Any]:
+    sp = r.spacings.to_value(u.au)
+    m = r.masses.to_value(u.M_jup)
+    out: dict[str, Any] = {"name": r.name, "n_clumps": len(r), "ids": list(r.ids),
+                           "spacing_method": r.spacing_method, "spacing_count": int(sp.size)}
+    out.update(_stats(sp, "au", "spacing"))
+    out["spacings_au"] = sp.tolist()
+    out["spacing_errors_au"] = r.spacing_errors.to_value(u.au).tolist()
+    out["spacing_pairs"] = [[r.ids[i], r.ids[j]] for i, j in r.spacing_pairs]
+    out.update(_stats(m, "mjup", "mass"))
+    out["masses_mjup"] = m.tolist()
+    out["mass_errors_mjup"] = r.mass_errors.to_value(u.M_jup).tolist()
+    out["mass_from_flux"] = r.mass_from_flux
+    out["metadata"] = _jsonable(r.meta)
+    out["warnings"] = list(r.warnings)
+    out["excluded"] = list(r.excluded)
+    return out
+
+
+def summarize(regions: list[Region]) -> dict[str, Any]:
+    """The ``infer check --json`` object for regions of one catalog.
+
+    Keys: ``n_clumps``, ``spacing_count``, ``spacing_median_au`` (and
+    ``_p16_``, ``_p84_``, ``_min_``, ``_max_``), ``spacings_au``,
+    ``spacing_errors_au``, ``mass_median_mjup`` (and the same statistics),
+    ``masses_mjup``, ``mass_errors_mjup``, ``warnings``, ``excluded``,
+    ``file``, ``n_regions``; with one region also ``ids``, ``metadata`` and the
+    other per-region keys; with several, ``regions`` (a list of per-region
+    objects) and the pooled statistics at the top level.
+    """
+    per = [_region_summary(r) for r in regions]
+    if len(per) == 1:
+        out = {"file": regions[0].source, "n_regions": 1, **per[0]}
+        return out
+    common = [w for w in regions[0].warnings if all(w in r.warnings for r in regions)]
+    warnings = common + [f"[{r.name}] {w}" for r in regions for w in r.warnings if w not in common]
+    sp = np.concatenate([r.spacings.to_value(u.au) for r in regions])
+    m = np.concatenate([r.masses.to_value(u.M_jup) for r in regions])
+    out = {"file": regions[0].source, "n_regions": len(regions),
+           "n_clumps": int(sum(len(r) for r in regions)),
+           "spacing_method": regions[0].spacing_method, "spacing_count": int(sp.size)}
+    out.update(_stats(sp, "au", "spacing"))
+    out["spacings_au"] = sp.tolist()
+    out["spacing_errors_au"] = [e for p in per for e in p["spacing_errors_au"]]
+    out.update(_stats(m, "mjup", "mass"))
+    out["masses_mjup"] = m.tolist()
+    out["mass_errors_mjup"] = [e for p in per for e in p["mass_errors_mjup"]]
+    out["warnings"] = warnings
+    out["excluded"] = [f"[{r.name}] {x}" for r in regions for x in r.excluded]
+    out["regions"] = per
+    return out
