@@ -85,7 +85,8 @@ def fit_region(region, config: RunConfig, out_dir: str | Path, *, catalog_bytes:
     rh = run_hash(catalog_bytes, region.name, config)
     created = prepare_out_dir(out, run_hash=rh, resume=resume)
     try:
-        write_json(out / RUN_FILE, {"run_hash": rh, "region": region.name, "source": region.source})
+        write_json(out / RUN_FILE, {"run_hash": rh, "region": region.name,
+                                    "source": str(Path(region.source).resolve())})
         atomic_write_text(out / "config.toml", config.to_toml())
         obs = Observations.from_region(region)
         model = build_model(config, obs)
