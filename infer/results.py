@@ -133,6 +133,8 @@ def summary_table(post: Posterior, model: Model) -> Table:
         qs = _quantiles(post.derived[name])
         if not np.isfinite(qs["median"]):
             continue
+        if model.options.diffusion == "ideal" and name.startswith("eta_"):
+            continue  # flux freezing: the diffusivities are zero by assumption
         rows.append((name, DERIVED_UNITS[name], qs, "derived"))
     t = Table()
     t["name"] = [r[0] for r in rows]

@@ -25,7 +25,8 @@ from .chainfile import ChainData, append_chunk, create_chain, read_chain
 from .config import SamplerOptions
 from .errors import ChainError, InferError
 
-__all__ = ["SampleResult", "find_map", "find_modes", "initial_ball", "make_moves", "run_sampler", "autocorr_times"]
+__all__ = ["SampleResult", "autocorr_times", "find_map", "find_modes", "initial_ball", "make_moves",
+           "run_sampler"]
 
 
 @dataclass(frozen=True)
@@ -237,9 +238,9 @@ def run_sampler(
     converged, tau = _converged(tau_history, iteration, options)
     bar = None
     if progress and iteration < options.max_steps and not converged:
-        from tqdm.auto import tqdm
-
         import sys
+
+        from tqdm.auto import tqdm
 
         interactive = sys.stderr.isatty()
         bar = tqdm(total=options.max_steps, initial=iteration, unit="step", desc="sampling",
