@@ -73,9 +73,18 @@ def _h5py():
 
 def create_chain(path: str | Path, *, names, n_walkers: int, run_hash: str, info: dict) -> None:
     """Write an empty chain file (atomically)."""
-    h5py = _h5py()
     path = Path(path)
     tmp = path.with_name(path.name + ".partial")
+    try:
+        _create(path, tmp, names=names, n_walkers=n_walkers, run_hash=run_hash, info=info)
+    except OSError as exc:
+        _discard(tmp)
+        raise ChainError(f"{path}: cannot create the chain file ({_reason(exc)}); choose another "
+                         f"--out folder or free some space") from None
+
+
+def _create(path: Path, tmp: Path, *, names, n_walkers: int, run_hash: str, info: dict) -> None:
+    h5py = _h5py()
     ndim = len(names)
     with h5py.File(tmp, "w") as f:
         g = f.create_group(GROUP)
@@ -115,9 +124,30 @@ def append_chunk(path: str | Path, *, coords, log_prob, accepted, random_state, 
     info : dict, optional
         Replaces the stored info.
     """
-    h5py = _h5py()
     path = Path(path)
     tmp = path.with_name(path.name + ".partial")
+    try:
+        _append(path, tmp, coords=coords, log_prob=log_prob, accepted=accepted,
+                random_state=random_state, tau_history=tau_history, info=info)
+    except OSError as exc:
+        _discard(tmp)
+        raise ChainError(f"{path}: cannot save the checkpoint ({_reason(exc)}); the chain saved so far "
+                         f"is intact: free space or fix permissions, then rerun with --resume") from None
+
+
+def _reason(exc: OSError) -> str:
+    return exc.strerror or " ".join(str(exc).split()) or type(exc).__name__
+
+
+def _discard(tmp: Path) -> None:
+    try:
+        tmp.unlink()
+    except OSError:
+        pass
+
+
+def _append(path: Path, tmp: Path, *, coords, log_prob, accepted, random_state, tau_history, info):
+    h5py = _h5py()
     shutil.copyfile(path, tmp)
     coords = np.asarray(coords, dtype=float)
     log_prob = np.asarray(log_prob, dtype=float)
