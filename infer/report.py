@@ -27,7 +27,7 @@ import numpy as np
 from .errors import ChainError
 from .forecast import ForecastResult, forecast
 from .model import Model
-from .results import Posterior
+from .results import Posterior, ln_width
 from .spectrum_band import SpectrumBand, band_figure, spectrum_band
 
 __all__ = ["Block", "Report", "build_report", "write_report", "render_markdown", "render_pages",
@@ -114,12 +114,7 @@ def _g(v: float, digits: int = 3) -> str:
 
 
 def _ln_width(x: np.ndarray) -> float:
-    x = np.asarray(x, dtype=float)
-    x = x[np.isfinite(x) & (x > 0)]
-    if x.size < 10:
-        return np.nan
-    a, b = np.quantile(np.log(x), [0.16, 0.84])
-    return float(b - a)
+    return ln_width(x, min_size=10)
 
 
 def width_ratios(post: Posterior, model: Model, *, n_prior: int = 4000,

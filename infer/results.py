@@ -145,10 +145,11 @@ def summary_table(post: Posterior, model: Model) -> Table:
     return t
 
 
-def _width(x: np.ndarray) -> float:
+def ln_width(x: np.ndarray, *, min_size: int = 2) -> float:
+    """Width of the central 68% interval of ln x (positive, finite samples only)."""
     x = np.asarray(x, dtype=float)
     x = x[np.isfinite(x) & (x > 0)]
-    if x.size < 2:
+    if x.size < min_size:
         return np.nan
     a, b = np.quantile(np.log(x), [0.16, 0.84])
     return float(b - a)
@@ -167,8 +168,8 @@ def identifiability_notes(post: Posterior, model: Model) -> list[str]:
     rng = np.random.default_rng(0)
     for name in post.names:
         prior = model.priors[name]
-        pw = _width(prior.sample(rng, 20000))
-        w = _width(post.values[name])
+        pw = ln_width(prior.sample(rng, 20000))
+        w = ln_width(post.values[name])
         if np.isfinite(pw) and np.isfinite(w) and w >= 0.9 * pw:
             notes.append(f"{name}: not constrained by the data (posterior 68% interval is "
                          f"{w / pw:.0%} of the prior's width); its summary reflects the prior.")
@@ -181,9 +182,9 @@ def identifiability_notes(post: Posterior, model: Model) -> list[str]:
                                  f"(correlation of their logarithms {c[i, j]:+.2f}); the corner plot "
                                  f"shows the ridge; quote them jointly.")
     if model.options.diffusion == "free":
-        w_ad = _width(post.values["eta_ad"])
-        w_o = _width(post.values["eta_ohm"])
-        w_t = _width(post.derived["eta_total"])
+        w_ad = ln_width(post.values["eta_ad"])
+        w_o = ln_width(post.values["eta_ohm"])
+        w_t = ln_width(post.derived["eta_total"])
         if np.isfinite(w_t) and w_t < 0.5 * min(w_ad, w_o):
             notes.append(f"eta_ad and eta_ohm: the fragmentation constrains only their sum "
                          f"eta_total (68% width {w_t:.2f} in ln against {w_ad:.2f} and {w_o:.2f} for "
