@@ -9,6 +9,7 @@ cgs arrays that broadcast together.
 
 from __future__ import annotations
 
+import functools
 from dataclasses import dataclass
 from typing import Any
 
@@ -64,7 +65,7 @@ class Conditions:
     @property
     def inv_mu2(self) -> np.ndarray:
         """1 / mu0^2 (0 without field)."""
-        with np.errstate(divide="ignore"):
+        with np.errstate(divide="ignore", over="ignore"):   # mu0 > 1e154: 1 / inf = 0
             return np.where(np.isinf(self.mu0), 0.0, 1.0 / self.mu0**2)
 
 
@@ -72,7 +73,7 @@ def _positive(arr: np.ndarray, name: str, *, allow_zero: bool = False) -> np.nda
     bad = arr < 0.0 if allow_zero else arr <= 0.0
     if np.any(bad):
         what = "non-negative" if allow_zero else "positive"
-        raise InferError(f"{name}: must be {what}; got {arr[bad].ravel()[0]!r}")
+        raise InferError(f"{name}: must be {what}; got {float(arr[bad].ravel()[0])!r}")
     return arr
 
 
@@ -81,11 +82,24 @@ def _one_of(name_a: str, a: Any, name_b: str, b: Any) -> None:
         raise InferError(f"give either {name_a} or {name_b}, not both")
 
 
+def _quiet(func):
+    """Run ``func`` without floating-point warnings: extreme but finite inputs may overflow
+    on the way, and :func:`_check_range` then refuses them with an InferError."""
+
+    @functools.wraps(func)
+    def wrapper(*args, **kwargs):
+        with np.errstate(over="ignore", invalid="ignore", divide="ignore"):
+            return func(*args, **kwargs)
+
+    return wrapper
+
+
+@_quiet
 def resolve_conditions(
     *,
     surface_density: Any = None,
     column_density: Any = None,
-    temperature: Any,
+    temperature: Any = None,
     mass_to_flux: Any = None,
     field: Any = None,
     eta_ad: Any = None,
@@ -108,6 +122,11 @@ def resolve_conditions(
     InferError
         (a ValueError) naming the argument and what to pass.
     """
+    _check_shapes(surface_density=surface_density, column_density=column_density,
+                  temperature=temperature, mass_to_flux=mass_to_flux, field=field, eta_ad=eta_ad,
+                  eta_ohm=eta_ohm, ionization=ionization, cosmic_ray_rate=cosmic_ray_rate,
+                  kappa=kappa, stellar_mass=stellar_mass, radius=radius,
+                  external_pressure=external_pressure)
     if fragment_shape not in FRAGMENT_SHAPES:
         raise InferError(f"fragment_shape: must be one of {sorted(FRAGMENT_SHAPES)}, "
                          f"got {fragment_shape!r}")
@@ -163,7 +182,8 @@ def resolve_conditions(
         if ionization is not None:
             x_e = _positive(_ratio(ionization, "ionization"), "ionization")
             if np.any(x_e > 1.0):
-                raise InferError("ionization: the ionization fraction must be <= 1")
+                raise InferError(f"ionization: must be at most 1 (a fraction n_e / n_n); "
+                                 f"got {float(np.max(x_e))!r}")
         else:
             zeta = _positive(to_cgs(cosmic_ray_rate, name="cosmic_ray_rate", unit=1 / u.s),
                              "cosmic_ray_rate")
@@ -179,6 +199,9 @@ def resolve_conditions(
                            allow_zero=True))
         x_e = np.full((), np.nan)
         tau = np.full((), np.nan)
+    _check_range(eq, kap, e_ad, e_ohm, mu0, x_e,
+                 "surface_density" if surface_density is not None else "column_density",
+                 derived_x_e=cosmic_ray_rate is not None)
 
     try:
         shape = np.broadcast_shapes(*(np.shape(a) for a in
@@ -194,6 +217,51 @@ def resolve_conditions(
         x_e=np.asarray(x_e, dtype=float), tau_ni=np.asarray(tau, dtype=float),
         mu_gas=float(mu_gas), fragment_shape=fragment_shape, shape=shape,
     )
+
+
+#: largest dimensionless kernel parameter (P~, kappa t0, eta t0 / L0^2, 1 / mu0^2) accepted;
+#: physical conditions stay below ~1e10, and up to this bound the kernel's arithmetic
+#: neither overflows nor loses the root (tests/test_kernel_extremes.py)
+KERNEL_LIMIT = 1e30
+
+
+def _check_range(eq, kap, e_ad, e_ohm, mu0, x_e, density_name: str, *, derived_x_e: bool) -> None:
+    """Refuse finite but extreme conditions that the model cannot evaluate in floating point."""
+    thermal_mass = eq.sigma * (2.0 * eq.ceff2 / (G * eq.sigma)) ** 2
+    scales = (eq.length, eq.time, eq.rho_c, eq.z0, eq.ceff2, thermal_mass)
+    if not all(np.all(np.isfinite(a) & (a > 0.0)) for a in scales):
+        raise InferError(f"{density_name}, temperature, external_pressure, mu_gas: the sheet's "
+                         f"length, time, density or mass scale is out of the floating-point "
+                         f"range; check their values and units")
+    limit = KERNEL_LIMIT
+    if not np.all(eq.p_tilde <= limit):
+        raise InferError(f"external_pressure: more than {limit:.0e} times the sheet's own "
+                         f"gravitational pressure pi G Sigma^2 / 2; check its value and unit")
+    if not np.all(kap * eq.time <= limit):
+        raise InferError(f"kappa (or stellar_mass and radius): the Toomre parameter exceeds "
+                         f"{2 * limit:.0e}; check the values and units")
+    if derived_x_e and not np.all(x_e <= 1.0):
+        raise InferError("cosmic_ray_rate: the derived x_e exceeds 1 (more electrons than "
+                         "neutrals); check its value and unit")
+    eta = (e_ad + e_ohm) * eq.time / eq.length**2
+    if not np.all(np.isfinite(e_ad) & np.isfinite(e_ohm) & (eta <= limit)):
+        raise InferError(f"eta_ad, eta_ohm (or ionization, cosmic_ray_rate): the total "
+                         f"diffusivity exceeds {limit:.0e} in the sheet's units "
+                         f"L0^2 / t0; check the values and units")
+    if not np.all(mu0 >= limit**-0.5):
+        raise InferError(f"field or mass_to_flux: a mass-to-flux ratio below {limit**-0.5:.0e} "
+                         f"of the critical value; check the values and units")
+
+
+def _check_shapes(**named: Any) -> None:
+    """Refuse array arguments that do not broadcast, before any arithmetic on them."""
+    shapes = {k: np.shape(v) for k, v in named.items() if v is not None and not isinstance(v, str)}
+    try:
+        np.broadcast_shapes(*shapes.values())
+    except ValueError:
+        listed = ", ".join(f"{k} {v}" for k, v in shapes.items() if v != ())
+        raise InferError(f"the array arguments do not broadcast against each other ({listed}); "
+                         "give scalars or arrays of compatible shapes") from None
 
 
 def _ratio(value: Any, name: str) -> np.ndarray:

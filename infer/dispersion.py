@@ -42,7 +42,8 @@ _N_GOLDEN = 50                         # golden-section steps, fallback only (0.
 _N_POLISH = 12                         # cap on Newton steps in (g, k)
 _N_NEWTON = 60                         # hard cap on Newton steps for the cubic root
 _LOG_K_SPAN_NO_ROTATION = np.log(1e6)  # lower end of the band when kappa = 0
-_ROUNDOFF = 8.0 * np.finfo(float).eps  # relative slack when comparing growth rates
+_ROUNDOFF = 1e-12                      # slack when comparing growth rates (the polish tolerance)
+_PLATEAU = 0.1                         # scan points this close to the best get a second look
 
 
 @dataclass(frozen=True)
@@ -104,9 +105,10 @@ def coefficients(k, p: SheetParams):
     """
     k = np.asarray(k, dtype=float)
     z0 = p.z0
-    d = p.kappa**2 + p.c2 * k**2 - k
-    lam = k * p.inv_mu2 + p.va2 * k**2
-    theta = p.eta * (k / z0 + k**2)
+    k2 = k * k
+    d = p.kappa**2 + p.c2 * k2 - k
+    lam = k * p.inv_mu2 + (z0 * p.inv_mu2) * k2
+    theta = p.eta * (k / z0 + k2)
     return d, lam, theta
 
 
@@ -138,35 +140,44 @@ def _cubic_root(d, lam, theta):
             s = np.sqrt(bb * bb - 4.0 * tt * tt * dd)
             gq = np.where(bb > 0.0, -2.0 * tt * dd / (s + bb), (s - bb) / (2.0 * tt))
         g = np.where(np.isfinite(gq), np.fmin(g1, gq), g1)
-        # a few Halley steps on all entries (cubic convergence; f'' > 0 and
-        # f >= 0 above the root), then only on those still moving
-        active = None
-        for it in range(_N_NEWTON):
-            if active is None:
-                ga, ta, ba, da = g, tt, bb, dd
-            else:
-                ga, ta, ba, da = g[active], tt[active], bb[active], dd[active]
-            g2 = ga * ga
-            f = g2 * ga + ta * g2 + ba * ga + ta * da
-            fp = 3.0 * g2 + 2.0 * ta * ga + ba
-            fpp = 6.0 * ga + 2.0 * ta
-            with np.errstate(invalid="ignore", divide="ignore", over="ignore"):
-                step = 2.0 * f * fp / (2.0 * fp * fp - f * fpp)
-            step = np.where(np.isfinite(step) & (fp > 0.0), step, 0.0)
-            g_new = np.maximum(ga - step, 0.0)
-            # from above the iterates decrease; a non-positive or round-off step means done
-            keep = step > 1e-15 * ga
-            if active is None:
-                g = g_new
-                if it >= 2:
-                    active = np.flatnonzero(keep)
-            else:
-                g[active] = g_new
-                active = active[keep]
-            if active is not None and active.size == 0:
-                break
+        g = _halley(g, tt, bb, dd)
         out[idx] = g
     return out.reshape(shape)
+
+
+def _halley(g, tt, bb, dd):
+    """Halley's method for the root of g^3 + tt g^2 + bb g + tt dd from the upper bounds ``g``.
+
+    1-D arrays. Returns the root (a copy where iterated).
+    """
+    # a few Halley steps on all entries (cubic convergence; f'' > 0 and
+    # f >= 0 above the root), then only on those still moving
+    active = None
+    for it in range(_N_NEWTON):
+        if active is None:
+            ga, ta, ba, da = g, tt, bb, dd
+        else:
+            ga, ta, ba, da = g[active], tt[active], bb[active], dd[active]
+        g2 = ga * ga
+        f = g2 * ga + ta * g2 + ba * ga + ta * da
+        fp = 3.0 * g2 + 2.0 * ta * ga + ba
+        fpp = 6.0 * ga + 2.0 * ta
+        with np.errstate(invalid="ignore", divide="ignore", over="ignore"):
+            step = 2.0 * f * fp / (2.0 * fp * fp - f * fpp)
+        step = np.where(np.isfinite(step) & (fp > 0.0), step, 0.0)
+        g_new = np.maximum(ga - step, 0.0)
+        # from above the iterates decrease; a non-positive or round-off step means done
+        keep = step > 1e-15 * ga
+        if active is None:
+            g = g_new
+            if it >= 2:
+                active = np.flatnonzero(keep)
+        else:
+            g[active] = g_new
+            active = active[keep]
+        if active is not None and active.size == 0:
+            break
+    return g
 
 
 def growth_rate(k, p: SheetParams) -> np.ndarray:
@@ -338,6 +349,61 @@ def _golden(a, b, p: SheetParams):
     return np.exp(x), np.maximum(f1, f2)
 
 
+def _scan_rates(k, p: SheetParams, n_anchor: int):
+    """Growth rates at the scan wavenumbers ``k`` (one row per parameter set).
+
+    Exact where they can matter. The last ``n_anchor`` columns are solved
+    first; (1 - _PLATEAU) times their best rate is a threshold. Of the other
+    columns only those whose upper bound (the smaller of sqrt(-D) and the
+    root of the quadratic part, as in :func:`_cubic_root`) reaches the
+    threshold are solved (about a quarter of them); the rest can be neither
+    the maximum nor on its plateau, and keep the upper bound.
+    Returns the rates and the mask of the exact ones.
+    """
+    d, lam, theta = np.broadcast_arrays(*coefficients(k, p))
+    out = np.empty(d.shape)
+    out[:, -n_anchor:] = _cubic_root(d[:, -n_anchor:], lam[:, -n_anchor:], theta[:, -n_anchor:])
+    d, lam, theta = d[:, :-n_anchor], lam[:, :-n_anchor], theta[:, :-n_anchor]
+    b = d + lam
+    diffusive = (theta > 0.0) & (d < 0.0)
+    with np.errstate(invalid="ignore", divide="ignore", over="ignore"):
+        s = np.sqrt(b * b - 4.0 * theta * theta * d)
+        gq = np.where(b > 0.0, -2.0 * theta * d / (s + b), (s - b) / (2.0 * theta))
+        up = np.where(np.isfinite(gq), np.fmin(np.sqrt(-d), gq), np.sqrt(-d))
+    threshold = (1.0 - _PLATEAU) * out[:, -n_anchor:].max(axis=1, keepdims=True)
+    need = diffusive & (up >= threshold)
+    grid = np.where(diffusive, up, np.where(theta > 0.0, 0.0, np.sqrt(np.maximum(-b, 0.0))))
+    grid[need] = _halley(up[need], theta[need], b[need], d[need])
+    out[:, :-n_anchor] = grid
+    exact = np.ones(out.shape, dtype=bool)
+    exact[:, :-n_anchor] = need | ~diffusive
+    return out, exact
+
+
+def _refine(x0, g0, a, b, q: SheetParams, *, fallback: bool = True):
+    """Polish the start (log k = x0, rate g0) inside the bracket [a, b] of log k.
+
+    Newton's method on (g, k) first; where it does not end at a clean interior
+    maximum at least as high as the start, golden section over the bracket
+    (never below the start), or with ``fallback=False`` just the start.
+    Returns k and g.
+    """
+    k1, g1, ok = _polish(np.exp(x0), g0, q, np.exp(a), np.exp(b))
+    g1 = np.where(ok, g1, 0.0)
+    # (g1 may fall short of g0 by round-off when the start was already the peak;
+    # with large theta the cubic is evaluated with ~eps * theta / g relative error)
+    ok &= (k1 > np.exp(a)) & (k1 < np.exp(b)) & (g1 >= g0 * (1.0 - _ROUNDOFF))
+    bad = np.flatnonzero(~ok)
+    if bad.size and not fallback:
+        k1[bad], g1[bad] = np.exp(x0[bad]), g0[bad]
+    elif bad.size:
+        kb, gb = _golden(a[bad], b[bad], _take(q, bad))
+        better = gb >= g0[bad]
+        k1[bad] = np.where(better, kb, np.exp(x0[bad]))
+        g1[bad] = np.where(better, gb, g0[bad])
+    return k1, g1
+
+
 def fastest_mode(p: SheetParams) -> FastestMode:
     """Locate the maximum of the growth rate over the unstable band.
 
@@ -345,11 +411,16 @@ def fastest_mode(p: SheetParams) -> FastestMode:
        wavenumbers across the closed-form band, plus two analytic candidates
        (the flux-frozen peak and the field-free peak), picks the best start;
        this guards against a second local maximum near the critical
-       mass-to-flux ratio.
+       mass-to-flux ratio. Scan points whose upper bound cannot come within
+       ``_PLATEAU`` of the analytic candidates are not solved exactly.
     2. Newton's method on (g, k) for p = 0, dp/dk = 0 polishes it
        (quadratic convergence, implicit differentiation of the cubic).
     3. Where that fails to converge inside the bracket of neighbouring grid
        cells, a golden-section search in log k over that bracket is used.
+    4. Where the scan shows a second local maximum outside that bracket (or
+       a flat top: a point within ``_PLATEAU`` of the best), that start is
+       refined too and the higher of the two results is kept; near the
+       critical mass-to-flux ratio two peaks can differ by < 1 % in height.
 
     All parameter sets advance together; no Python loop over sets.
 
@@ -390,24 +461,59 @@ def fastest_mode(p: SheetParams) -> FastestMode:
         )
         cand = np.where(np.isfinite(cand), cand, lo[:, None] + 0.5 * (hi - lo)[:, None])
         qq = SheetParams(*(a[:, None] for a in (q.inv_mu2, q.p_ext, q.kappa, q.eta)))
-        g_c = growth_rate(np.exp(cand), qq)
+        g_c, exact = _scan_rates(np.exp(cand), qq, 2)
         best = np.argmax(g_c, axis=1)
         rows = np.arange(idx.size)
         x0 = cand[rows, best]
         g0 = g_c[rows, best]
-        a = np.maximum(x0 - cell, lo)
-        b = np.minimum(x0 + cell, hi)
-        k1, g1, ok = _polish(np.exp(x0), g0, q, np.exp(a), np.exp(b))
-        # accept the polished point only if it is a clean interior maximum
-        g1 = np.where(ok, g1, 0.0)
-        # (g1 may fall short of g0 by round-off when the start was already the peak)
-        ok &= (k1 > np.exp(a)) & (k1 < np.exp(b)) & (g1 >= g0 * (1.0 - _ROUNDOFF))
-        bad = np.flatnonzero(~ok)
-        if bad.size:
-            kb, gb = _golden(a[bad], b[bad], _take(q, bad))
-            better = gb >= g0[bad]
-            k1[bad] = np.where(better, kb, np.exp(x0[bad]))
-            g1[bad] = np.where(better, gb, g0[bad])
+        k1, g1 = _refine(x0, g0, np.maximum(x0 - cell, lo), np.minimum(x0 + cell, hi), q)
+        # Near the critical mass-to-flux ratio the curve can have two peaks of almost equal
+        # height, or a flat top with two bumps, and the best scan point may sit by the
+        # lower one. Outside the first bracket, refine a second start too -- the best
+        # other local maximum of the scan (with the golden-section fallback, as Newton may
+        # land on the dip between the peaks) or else the best scan point within _PLATEAU
+        # of the best one (Newton only) -- and keep the higher result.
+        gg = g_c[:, :_N_GRID]
+        outside = exact[:, :_N_GRID] & (gg > 0.0) & (np.abs(cand[:, :_N_GRID] - x0[:, None])
+                                                     > cell[:, None] * (1.0 + 1e-9))
+        local = outside.copy()
+        local[:, 1:] &= gg[:, 1:] >= gg[:, :-1]
+        local[:, :-1] &= gg[:, :-1] >= gg[:, 1:]
+        flat = outside & (gg >= (1.0 - _PLATEAU) * g0[:, None])
+        for mask, fallback in ((local, True), (flat & ~local.any(axis=1)[:, None], False)):
+            two = np.flatnonzero(mask.any(axis=1))
+            if not two.size:
+                continue
+            j = np.argmax(np.where(mask[two], gg[two], -np.inf), axis=1)
+            x2, g2, c2 = cand[two, j], gg[two, j], cell[two]
+            k2, g2 = _refine(x2, g2, np.maximum(x2 - c2, lo[two]), np.minimum(x2 + c2, hi[two]),
+                             _take(q, two), fallback=fallback)
+            take = g2 > g1[two]
+            k1[two] = np.where(take, k2, k1[two])
+            g1[two] = np.where(take, g2, g1[two])
+        # Just above the critical mass-to-flux ratio (mu0 - 1 below ~1e-5) with weak
+        # diffusion, the flux-frozen peak near k ~ 1 - mu0^-2 can lie below the scan's
+        # lower end (where that end is the span's limit, not the band's edge). For those
+        # (few) sets, scan and refine [k_ideal / e^2, lower end] too (never below the band)
+        # and keep the higher result.
+        lo_band = np.where(klo > 0.0, np.log(np.where(klo > 0.0, klo, 1.0)), -np.inf)
+        ext = np.flatnonzero((k_ideal - 1.0 < lo) & (lo_band < lo))  # NaN compares False
+        if ext.size:
+            qe = _take(q, ext)
+            a = np.maximum(k_ideal[ext] - 2.0, lo_band[ext])
+            b = lo[ext] + cell[ext]
+            ce = (b - a) / _N_GRID
+            xs = np.concatenate([a[:, None] + (b - a)[:, None] * frac[None, :],
+                                 np.clip(k_ideal[ext], a, b)[:, None]], axis=1)
+            ge, _ = _scan_rates(np.exp(xs), SheetParams(
+                *(v[:, None] for v in (qe.inv_mu2, qe.p_ext, qe.kappa, qe.eta))), 1)
+            j = np.argmax(ge, axis=1)
+            r = np.arange(ext.size)
+            ke, gke = _refine(xs[r, j], ge[r, j], np.maximum(xs[r, j] - ce, a),
+                              np.minimum(xs[r, j] + ce, b), qe)
+            take = gke > g1[ext]
+            k1[ext] = np.where(take, ke, k1[ext])
+            g1[ext] = np.where(take, gke, g1[ext])
         grows = g1 > 0.0
         out_k[idx] = np.where(grows, k1, np.nan)
         out_g[idx] = np.where(grows, g1, np.nan)

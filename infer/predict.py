@@ -19,6 +19,7 @@ import numpy as np
 from . import dispersion
 from .conditions import FRAGMENT_SHAPES, Conditions, resolve_conditions
 from .constants import AU, M_JUP, MU_GAS, YR, G
+from .errors import InferError
 from .sheet import equilibrium
 
 __all__ = ["Forward", "forward", "forward_conditions", "Prediction", "predict"]
@@ -76,6 +77,12 @@ def forward(sigma, temperature, *, inv_mu2, eta_total, kappa=0.0, p_ext=0.0,
         eta=np.asarray(eta_total, dtype=float) * t0 / l0**2,
     )
     mode = dispersion.fastest_mode(p)
+    with np.errstate(over="ignore", divide="ignore"):   # extreme scales: see _check_results
+        return _dimensional(mode, p, eq, l0, t0, kappa, fragment_shape)
+
+
+def _dimensional(mode, p, eq, l0, t0, kappa, fragment_shape) -> Forward:
+    """The fastest mode in cgs units (the second half of :func:`forward`)."""
     shape_factor = FRAGMENT_SHAPES[fragment_shape]
     sig = np.broadcast_to(eq.sigma, mode.k.shape)
     lam = 2.0 * np.pi * np.broadcast_to(l0, mode.k.shape) / mode.k
@@ -205,7 +212,7 @@ def predict(
     *,
     surface_density: Any = None,
     column_density: Any = None,
-    temperature: Any,
+    temperature: Any = None,
     mass_to_flux: Any = None,
     field: Any = None,
     eta_ad: Any = None,
@@ -285,9 +292,31 @@ def forward_conditions(c: Conditions) -> Forward:
                    fragment_shape=c.fragment_shape)
 
 
+def _check_results(out: Forward) -> None:
+    """Refuse results that left the floating-point range (finite inputs at extreme scales).
+
+    Where the closed-form band says a mode grows, the fastest mode's wavelength, growth time
+    and fragment mass must be finite and positive; a growth rate that underflows to 0 (e.g.
+    a strongly subcritical sheet with a vanishing diffusivity) or a mass that overflows is
+    not a result the model can report.
+    """
+    band = np.isfinite(out.band_short)
+    grows = np.broadcast_to(out.unstable, band.shape)
+    ok = np.array_equal(band, grows)
+    for a in (out.wavelength, out.growth_time, out.fragment_mass):
+        v = np.broadcast_to(a, band.shape)[grows]
+        ok = ok and bool(np.all(np.isfinite(v) & (v > 0.0)))
+    if not ok:
+        raise InferError("the fastest mode's growth time, wavelength or fragment mass is beyond "
+                         "the floating-point range for these conditions (e.g. a diffusivity so "
+                         "small that the growth is too slow to express); check the values and "
+                         "units of the conditions")
+
+
 def prediction_from_conditions(c: Conditions) -> Prediction:
     """Evaluate the model on resolved conditions; Quantity results."""
     out = forward_conditions(c)
+    _check_results(out)
     shape = c.shape
     b_field, mu0, e_ad, e_ohm, x_e, tau = c.field, c.mu0, c.eta_ad, c.eta_ohm, c.x_e, c.tau_ni
 

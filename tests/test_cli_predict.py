@@ -1,0 +1,133 @@
+"""``infer predict`` on the command line: JSON contract, exit codes, one-line errors."""
+
+from __future__ import annotations
+
+import json
+import subprocess
+import sys
+
+import astropy.units as u
+import numpy as np
+import pytest
+
+from infer import predict
+from infer.cli import main
+
+# keys fixed by architecture.md ("--json prints one JSON object with at least these keys")
+REQUIRED_KEYS = {"unstable", "wavelength_au", "growth_time_yr", "fragment_mass_mjup",
+                 "mass_to_flux", "toomre_q", "field_mG", "eta_ad_cm2_s", "eta_ohm_cm2_s",
+                 "thermal_wavelength_au", "thermal_mass_mjup"}
+
+DISK = ["--surface-density", "60 g/cm2", "--temperature", "35 K", "--mass-to-flux", "1.6",
+        "--ionization", "1e-10", "--stellar-mass", "0.5 solMass", "--radius", "80 au"]
+
+
+def run(argv, capsys):
+    """Exit code, stdout, stderr of ``infer.cli.main`` (argparse errors exit via SystemExit)."""
+    try:
+        code = main(argv)
+    except SystemExit as exc:
+        code = exc.code
+    out, err = capsys.readouterr()
+    return code, out, err
+
+
+def test_json_has_the_contract_keys_and_matches_the_api(capsys):
+    code, out, err = run(["predict", *DISK, "--json"], capsys)
+    assert code == 0 and err == ""
+    data = json.loads(out)
+    assert REQUIRED_KEYS <= set(data)
+    ref = predict(surface_density=60 * u.g / u.cm**2, temperature=35 * u.K, mass_to_flux=1.6,
+                  ionization=1e-10, stellar_mass=0.5 * u.M_sun, radius=80 * u.au)
+    assert data["unstable"] is True
+    assert data["wavelength_au"] == pytest.approx(ref.wavelength.to_value(u.au), rel=1e-12)
+    assert data["growth_time_yr"] == pytest.approx(ref.growth_time.to_value(u.yr), rel=1e-12)
+    assert data["fragment_mass_mjup"] == pytest.approx(ref.fragment_mass.to_value(u.M_jup),
+                                                       rel=1e-12)
+    assert data["field_mG"] == pytest.approx(ref.field.to_value(u.mG), rel=1e-12)
+    assert data["mass_to_flux"] == pytest.approx(1.6, rel=1e-14)
+    for key in REQUIRED_KEYS - {"unstable"}:
+        assert isinstance(data[key], float), key
+
+
+def test_json_uses_null_where_undefined(capsys):
+    # Q > 1, no field (Toomre 1964): stable; the mass-to-flux ratio of a field-free sheet
+    # is infinite, which JSON cannot hold: null as well.
+    code, out, _ = run(["predict", "--surface-density", "1 g/cm2", "--temperature", "50 K",
+                        "--stellar-mass", "1 solMass", "--radius", "20 au", "--json"], capsys)
+    assert code == 0
+    data = json.loads(out)               # strict JSON: no NaN / Infinity tokens
+    assert "NaN" not in out and "Infinity" not in out
+    assert data["unstable"] is False
+    for key in ("wavelength_au", "growth_time_yr", "fragment_mass_mjup", "mass_to_flux"):
+        assert data[key] is None, key
+    assert data["thermal_wavelength_au"] is not None and data["toomre_q"] > 1
+
+
+def test_text_output(capsys):
+    code, out, err = run(["predict", *DISK], capsys)
+    assert code == 0 and err == ""
+    assert "unstable" in out and "au" in out and "M_Jup" in out
+    code, out, _ = run(["predict", "--surface-density", "50 g/cm2", "--temperature", "20 K",
+                        "--mass-to-flux", "0.7"], capsys)
+    assert code == 0 and "stable" in out
+
+
+@pytest.mark.parametrize("argv,option", [
+    (["--surface-density", "-5 g/cm2", "--temperature", "10 K"], "--surface-density"),
+    (["--surface-density", "0 g/cm2", "--temperature", "10 K"], "--surface-density"),
+    (["--surface-density", "5 g/cm2", "--temperature", "0 K"], "--temperature"),
+    (["--surface-density", "5 g/cm2", "--temperature", "10"], "--temperature"),
+    (["--surface-density", "5 K", "--temperature", "10 K"], "--surface-density"),
+    (["--surface-density", "nan g/cm2", "--temperature", "10 K"], "--surface-density"),
+    (["--surface-density", "lots", "--temperature", "10 K"], "--surface-density"),
+    (["--surface-density", "5 g/cm2"], "--temperature"),
+    (["--temperature", "10 K"], "--surface-density"),
+    (["--surface-density", "5 g/cm2", "--temperature", "10 K", "--field", "1 mG",
+      "--mass-to-flux", "2"], "--mass-to-flux"),
+    (["--surface-density", "5 g/cm2", "--temperature", "10 K", "--eta-ad", "-1 cm2/s"],
+     "--eta-ad"),
+    (["--surface-density", "5 g/cm2", "--temperature", "10 K", "--eta-ohm", "1e16 K"],
+     "--eta-ohm"),
+    (["--surface-density", "5 g/cm2", "--temperature", "10 K", "--ionization", "2"],
+     "--ionization"),
+    (["--surface-density", "5 g/cm2", "--temperature", "10 K", "--stellar-mass", "1 solMass"],
+     "--radius"),
+    (["--surface-density", "5 g/cm2", "--temperature", "10 K", "--mu-gas", "-1"], "--mu-gas"),
+    (["--surface-density", "5 g/cm2", "--temperature", "10 K", "--no-such-option"],
+     "--no-such-option"),
+    (["--surface-density", "5 g/cm2", "--temperature", "10 K", "--fragment-shape", "round"],
+     "--fragment-shape"),
+])
+def test_bad_options_exit_2_with_one_line(argv, option, capsys):
+    code, out, err = run(["predict", *argv], capsys)
+    assert code == 2
+    assert out == ""
+    lines = err.strip().splitlines()
+    assert len(lines) == 1, err
+    assert option in lines[0]
+    assert "Traceback" not in err and "internal error" not in err
+
+
+def test_python_dash_m_exit_code_and_message():
+    proc = subprocess.run(
+        [sys.executable, "-m", "infer", "predict", "--surface-density", "0 g/cm2",
+         "--temperature", "10 K", "--json"],
+        capture_output=True, text=True, timeout=120, check=False)
+    assert proc.returncode == 2
+    assert proc.stdout == ""
+    lines = proc.stderr.strip().splitlines()
+    assert len(lines) == 1 and "--surface-density" in lines[0] and "positive" in lines[0]
+    assert "Traceback" not in proc.stderr
+
+
+def test_json_matches_thermal_reference(capsys):
+    # checks.md worked value through the command line: N(H2) = 1e22 cm^-2, 10 K ->
+    # lambda_m = 0.0734 pc (Larson 1985, MNRAS 214, 379; from memory)
+    code, out, _ = run(["predict", "--column-density", "1e22 cm-2", "--temperature", "10 K",
+                        "--json"], capsys)
+    assert code == 0
+    data = json.loads(out)
+    assert (data["wavelength_au"] * u.au).to_value(u.pc) == pytest.approx(0.0734, abs=5e-5)
+    assert data["field_mG"] == 0.0 and data["mass_to_flux"] is None
+    assert np.isclose(data["wavelength_au"], data["thermal_wavelength_au"], rtol=1e-7)
