@@ -1,0 +1,187 @@
+"""Survey benchmark: eight regions on two local Dask workers against the same fits run one by one.
+
+Run from the project root::
+
+    /work/venv/bin/python benchmarks/survey.py [--regions 8] [--workers 2] [--max-steps 500]
+
+The demo disk (``catalogs/demo_disk.ecsv``, 8 clumps) is copied into one
+catalog as ``--regions`` groups ``disk-1``, ``disk-2``, ...; each gets its own
+seed (:func:`infer.survey.region_seed`), so the eight chains differ but cost
+the same. The config is ``catalogs/demo_disk.toml`` with ``--max-steps`` and a
+convergence rule that never fires (tau_factor 1e9), so every chain runs
+exactly ``--max-steps`` steps in both runs; per-region figures are off in both.
+
+Measured in one run, in this order:
+
+* sequential: :func:`infer.fitting.fit_region` on each region in this process;
+* cluster start: a ``LocalCluster`` of ``--workers`` processes (one thread each),
+  warmed up by importing the package on every worker;
+* parallel: :func:`infer.survey.run_survey` on that cluster (reading, task
+  submission, fits, the survey table and figure);
+* scheduler overhead: the mean round trip of a trivial task (submit, wait for
+  the result) and the mean gap between consecutive tasks on a worker (from the
+  scheduler's task stream); survey overhead: the time before the first task
+  starts and after the last one ends (reading, connecting; table, figure);
+* CPU seconds used by the sequential run and by the workers, i.e. how many
+  cores each run actually obtained.
+
+It prints the wall times, the speed-up (sequential / parallel; goal >= 1.7
+with two workers on two free cores), the same including the cluster start,
+checks that both runs gave identical chains, and prints the load average, as
+other processes on the machine slow the parallel run more than the sequential one.
+"""
+
+from __future__ import annotations
+
+import argparse
+import logging
+import os
+import shutil
+import tempfile
+import time
+from pathlib import Path
+
+import numpy as np
+from astropy.table import Table, vstack
+
+ROOT = Path(__file__).resolve().parents[1]
+
+
+def _noop(x):
+    return x
+
+
+def _warm() -> str:
+    import infer.fitting  # noqa: F401 - the imports a fit needs, paid once per worker
+    import infer.survey  # noqa: F401
+
+    return "ok"
+
+
+def make_catalog(path: Path, n: int) -> None:
+    """The demo disk repeated as n groups disk-1 ... disk-n (metadata shared)."""
+    disk = Table.read(ROOT / "catalogs" / "demo_disk.ecsv", format="ascii.ecsv")
+    parts = []
+    for k in range(1, n + 1):
+        t = disk.copy()
+        t.add_column([f"disk-{k}"] * len(t), name="group", index=0)
+        parts.append(t)
+    out = vstack(parts, metadata_conflicts="silent")
+    out.meta = disk.meta
+    out.write(path, format="ascii.ecsv", overwrite=True)
+
+
+def main() -> None:
+    ap = argparse.ArgumentParser(description=__doc__.splitlines()[0])
+    ap.add_argument("--regions", type=int, default=8)
+    ap.add_argument("--workers", type=int, default=2)
+    ap.add_argument("--max-steps", type=int, default=500)
+    ap.add_argument("--round-trips", type=int, default=50)
+    args = ap.parse_args()
+
+    from dask.distributed import Client, LocalCluster, get_task_stream
+
+    from infer.catalog import read_catalog
+    from infer.chainfile import read_chain
+    from infer.config import load_config
+    from infer.fitting import fit_region
+    from infer.survey import region_config, run_survey
+
+    tmp = Path(tempfile.mkdtemp(prefix="infer-bench-survey-"))
+    try:
+        cat = tmp / "disks.ecsv"
+        make_catalog(cat, args.regions)
+        config = load_config(ROOT / "catalogs" / "demo_disk.toml").with_sampler(
+            max_steps=args.max_steps, tau_factor=1e9)
+        regions = read_catalog(cat, spacing=config.model.spacing)
+        data = cat.read_bytes()
+        print(f"{len(regions)} regions of {len(regions[0])} clumps; {config.sampler.walkers} walkers "
+              f"x {args.max_steps} steps each; {args.workers} workers; load average before: "
+              f"{', '.join(f'{v:.2f}' for v in os.getloadavg())} on {os.cpu_count()} cores")
+
+        t0 = time.perf_counter()
+        c0 = time.process_time()
+        seq_times = []
+        for r in regions:
+            t = time.perf_counter()
+            fit_region(r, region_config(config, r), tmp / "seq" / r.name, catalog_bytes=data,
+                       progress=False, plots=False)
+            seq_times.append(time.perf_counter() - t)
+        t_seq = time.perf_counter() - t0
+        cpu_seq = time.process_time() - c0
+
+        t0 = time.perf_counter()
+        cluster = LocalCluster(n_workers=args.workers, threads_per_worker=1, processes=True,
+                               silence_logs=logging.ERROR,
+                               env={"OMP_NUM_THREADS": "1", "OPENBLAS_NUM_THREADS": "1"})
+        client = Client(cluster)
+        client.run(_warm)
+        t_start = time.perf_counter() - t0
+        try:
+            t0 = time.perf_counter()
+            for _ in range(args.round_trips):
+                client.submit(_noop, 1, pure=False).result()
+            t_trip = (time.perf_counter() - t0) / args.round_trips
+
+            import psutil
+
+            procs = [psutil.Process(pid) for pid in client.run(os.getpid).values()]
+            cpu0 = sum(sum(p.cpu_times()[:2]) for p in procs)
+            with get_task_stream(client) as recorder:
+                t_wall0 = time.time()
+                tp = time.perf_counter()
+                result = run_survey([cat], config, tmp / "par",
+                                    scheduler=cluster.scheduler_address, progress=False,
+                                    plots=False)
+                t_par = time.perf_counter() - tp
+            cpu_par = sum(sum(p.cpu_times()[:2]) for p in procs) - cpu0
+            stream = [ts for ts in recorder.data if "_fit_task" in str(ts.get("key", ""))]
+        finally:
+            client.close()
+            cluster.close()
+        assert not result.failed, result.failed
+
+        busy: dict[str, float] = {}
+        count: dict[str, int] = {}
+        task_times = []
+        spans: dict[str, list[float]] = {}
+        for ts in stream:
+            for ss in ts["startstops"]:
+                if ss["action"] == "compute":
+                    busy[ts["worker"]] = busy.get(ts["worker"], 0.0) + ss["stop"] - ss["start"]
+                    task_times.append(ss["stop"] - ss["start"])
+                    spans.setdefault(ts["worker"], []).extend([ss["start"], ss["stop"]])
+            count[ts["worker"]] = count.get(ts["worker"], 0) + 1
+        busiest = max(busy, key=busy.get)
+        idle = t_par - busy[busiest]
+        first = min(min(v) for v in spans.values()) - t_wall0
+        last = t_wall0 + t_par - max(max(v) for v in spans.values())
+        gaps = [(max(v) - min(v) - busy[w]) / max(count[w] - 1, 1) for w, v in spans.items()]
+
+        same = all(np.array_equal(read_chain(tmp / "seq" / r.name / "chain.h5").chain,
+                                  read_chain(tmp / "par" / r.name / "chain.h5").chain)
+                   for r in regions)
+        print(f"sequential: {t_seq:7.1f} s  ({np.mean(seq_times):.1f} s per region, "
+              f"{min(seq_times):.1f}-{max(seq_times):.1f})")
+        print(f"parallel:   {t_par:7.1f} s  (warm cluster; task compute {np.mean(task_times):.1f} s "
+              f"per region, {min(task_times):.1f}-{max(task_times):.1f})")
+        print(f"cluster start (+ imports on the workers): {t_start:.1f} s")
+        print(f"speed-up: {t_seq / t_par:.2f}x (goal >= 1.7x); including the cluster start "
+              f"{t_seq / (t_par + t_start):.2f}x")
+        print(f"scheduler overhead: trivial-task round trip {1e3 * t_trip:.1f} ms; gap between "
+              f"consecutive tasks on a worker {1e3 * np.mean(gaps):.0f} ms")
+        print(f"survey overhead: {first:.2f} s before the first task (reading, connecting), "
+              f"{last:.2f} s after the last (table, figure); parallel time not computing on the "
+              f"busiest worker {idle:.2f} s = {idle / count[busiest]:.2f} s per task of its "
+              f"{count[busiest]}")
+        print(f"CPU time: sequential {cpu_seq:.1f} s in {t_seq:.1f} s ({cpu_seq / t_seq:.2f} cores); "
+              f"workers {cpu_par:.1f} s in {t_par:.1f} s ({cpu_par / t_par:.2f} cores of "
+              f"{args.workers}; fewer means other processes had the CPU)")
+        print(f"chains identical to the sequential fits: {same}")
+        print(f"load average after: {', '.join(f'{v:.2f}' for v in os.getloadavg())}")
+    finally:
+        shutil.rmtree(tmp, ignore_errors=True)
+
+
+if __name__ == "__main__":
+    main()
