@@ -313,17 +313,20 @@ def _polish(k, g, p: SheetParams, k_min, k_max):
         k_new = np.clip(kk + dk, lo, hi)
         g_new = np.maximum(gg + dg, 0.0)
         done = good & (np.abs(dk) <= 1e-12 * kk) & (np.abs(dg) <= 1e-12 * np.maximum(gg, 1e-300))
+        # no further progress possible: a bad step, or pinned at a bracket edge and pushing out
+        # (such entries are not ok and go to the fallback without more iterations)
+        stuck = ~good | ((kk <= lo) & (dk <= 0.0)) | ((kk >= hi) & (dk >= 0.0))
         if compact:
             k[active] = k_new
             g[active] = g_new
             ok[active] = done
-            active = active[~done]
+            active = active[~(done | stuck)]
             if active.size == 0:
                 break
         else:
             k, g = k_new, g_new
             ok = done
-            if ok.all():
+            if np.all(done | stuck):
                 break
     return k, g, ok
 
