@@ -35,7 +35,7 @@ from typing import Any
 import astropy.units as u
 import numpy as np
 from astropy.coordinates import SkyCoord
-from scipy.spatial.distance import pdist, squareform
+from scipy.spatial import cKDTree
 
 from . import geometry
 from .catalog_columns import Cells, column_layout, column_values, is_kind
@@ -188,15 +188,35 @@ def _orientation(src: str, meta: dict, notes: list[str], group: str | None) -> n
 
 def _duplicates(cells: Cells, rows: np.ndarray, sx: np.ndarray, sy: np.ndarray) -> None:
     pts = np.column_stack([sx, sy])
-    dist = squareform(pdist(pts))
+    pts = pts / max(float(np.max(np.abs(pts))), 1e-300)   # squares neither overflow nor underflow
     scale = max(float(np.ptp(pts[:, 0]) + np.ptp(pts[:, 1])), 1e-300)
-    close = np.argwhere(np.triu(dist <= 1e-9 * scale, k=1))
-    if close.size:
-        i, j = rows[close[0]]
+    # pairs closer than 1e-9 of the extent, found with a tree (no N^2 distance matrix)
+    close = sorted(cKDTree(pts).query_pairs(1e-9 * scale))
+    if close:
+        i, j = rows[list(close[0])]
         ids = cells.ids
         raise CatalogError(f"{cells.src}: rows {i + 1} and {j + 1} (ids {ids[i]!r} and "
                            f"{ids[j]!r}) have the same position; remove the duplicate or "
                            f"correct the coordinates")
+
+
+_RANGE_HINT = {
+    "positions": "check the position and error units and the distance",
+    "spacings": "check the position and error units and the distance",
+    "masses": "check the mass or flux units and, for fluxes, the distance, wavelength, "
+              "dust_temperature, dust_opacity and gas_to_dust",
+}
+
+
+def _representable(src: str, group: str | None, what: str, *arrays: np.ndarray,
+                   positive: np.ndarray | None = None) -> None:
+    """Refuse values that overflowed (or, for ``positive``, underflowed to 0) in conversion."""
+    bad = not all(np.all(np.isfinite(a)) for a in arrays)
+    if positive is not None:
+        bad = bad or not np.all(positive > 0.0)
+    if bad:
+        raise CatalogError(f"{src}: the {what} are out of the floating-point range after unit "
+                           f"conversion (infinite, NaN or 0){_where(group)}; {_RANGE_HINT[what]}")
 
 
 def _region(cells, lay, vals, rows, name, group, overrides, spacing, excluded, notes):
@@ -218,29 +238,37 @@ def _region(cells, lay, vals, rows, name, group, overrides, spacing, excluded, n
             raise CatalogError(f"{src}: column 'id': id {key!r} appears in rows {seen[key] + 1} "
                                f"and {i + 1}{_where(group)}; ids must be unique")
         seen[key] = i
-    sx, sy = _sky_au(cells, vals, rows, meta, group)
+    with np.errstate(over="ignore", invalid="ignore"):  # out-of-range values: refused below
+        sx, sy = _sky_au(cells, vals, rows, meta, group)
+        ex, ey = _sky_err_au(cells, vals, rows, meta, group)
+    _representable(src, group, "positions", sx, sy, ex, ey)
     _duplicates(cells, rows, sx, sy)
-    ex, ey = _sky_err_au(cells, vals, rows, meta, group)
     matrix = _orientation(src, meta, notes, group)
-    dx, dy = geometry.deproject(sx * u.au, sy * u.au, inclination=meta["inclination"],
-                                position_angle=meta["position_angle"])
-    sp = geometry.clump_spacings(dx, dy, method=spacing, x_err=ex * u.au, y_err=ey * u.au,
-                                 matrix=matrix)
+    with np.errstate(over="ignore", invalid="ignore"):
+        dx, dy = geometry.deproject(sx * u.au, sy * u.au, inclination=meta["inclination"],
+                                    position_angle=meta["position_angle"])
+        sp = geometry.clump_spacings(dx, dy, method=spacing, x_err=ex * u.au, y_err=ey * u.au,
+                                     matrix=matrix)
+    _representable(src, group, "spacings", sp.lengths.value, sp.errors.value)
     amount = vals.amount[rows] * vals.amount_unit
     amount_err = (vals.amount_err[rows] if vals.amount_err is not None else np.zeros(n)) \
         * vals.amount_unit
     if lay.masses == "mass":
-        masses, mass_err = amount.to(u.solMass), amount_err.to(u.solMass)
+        with np.errstate(over="ignore", under="ignore"):
+            masses, mass_err = amount.to(u.solMass), amount_err.to(u.solMass)
     else:
         d = _need_distance(src, meta, "masses come from fluxes", group)
-        dust, dust_notes = dust_settings(meta, source=src)
-        notes += dust_notes
-        meta.update({k: v for k, v in dust.items() if v is not None})
-        masses, mass_err = dust_mass(
-            amount, distance=d, frequency=dust["frequency"], temperature=dust["dust_temperature"],
-            opacity=dust["dust_opacity_observed"], gas_to_dust=dust["gas_to_dust"],
-            flux_err=amount_err, temperature_err=dust["dust_temperature_err"],
-            opacity_err=dust["dust_opacity_observed_err"])
+        with np.errstate(over="ignore", invalid="ignore", divide="ignore", under="ignore"):
+            dust, dust_notes = dust_settings(meta, source=src)
+            notes += dust_notes
+            meta.update({k: v for k, v in dust.items() if v is not None})
+            masses, mass_err = dust_mass(
+                amount, distance=d, frequency=dust["frequency"],
+                temperature=dust["dust_temperature"], opacity=dust["dust_opacity_observed"],
+                gas_to_dust=dust["gas_to_dust"], flux_err=amount_err,
+                temperature_err=dust["dust_temperature_err"],
+                opacity_err=dust["dust_opacity_observed_err"])
+    _representable(src, group, "masses", masses.value, mass_err.value, positive=masses.value)
     meta.update({k: v for k, v in extras.items() if k not in meta})
     return Region(
         name=name, source=src, ids=tuple(ids), x=dx.to(u.au), y=dy.to(u.au),

@@ -33,6 +33,10 @@ __all__ = [
 ]
 
 DIFFUSION_MODES = ("ionization", "free", "ideal")
+#: more walkers than this is a typo, not a run (the sampler's arrays would not fit in memory)
+MAX_WALKERS = 100_000
+#: the sampler allocates check_every steps of the chain at once
+MAX_CHECK_EVERY = 100_000
 
 def _catalog_keys() -> tuple[str, ...]:
     from .catalog_meta import OVERRIDE_KEYS
@@ -220,10 +224,13 @@ def _int(where: str, value: Any, low: int) -> int:
 
 
 def _float(where: str, value: Any, low: float = 0.0) -> float:
-    if isinstance(value, bool) or not isinstance(value, (int, float)) or not np.isfinite(value) \
-            or value <= low:
+    try:
+        v = float(value) if isinstance(value, (int, float)) and not isinstance(value, bool) else None
+    except OverflowError:  # an integer beyond the float range
+        v = None
+    if v is None or not np.isfinite(v) or v <= low:
         raise ConfigError(f"{where}: must be a number > {low}, got {value!r}")
-    return float(value)
+    return v
 
 
 def parse_config(data: Mapping[str, Any], *, source: str = "<config>") -> RunConfig:
@@ -267,6 +274,13 @@ def _check_sampler(s: SamplerOptions, ndim: int) -> None:
         raise ConfigError(f"sampler.walkers: must be even, got {s.walkers}")
     if s.max_steps < 10:
         raise ConfigError(f"sampler.max_steps: must be at least 10, got {s.max_steps}")
+    if s.walkers > MAX_WALKERS:
+        raise ConfigError(f"sampler.walkers: at most {MAX_WALKERS}, got {s.walkers}")
+    if s.check_every > MAX_CHECK_EVERY:
+        raise ConfigError(f"sampler.check_every: at most {MAX_CHECK_EVERY} (each block of steps "
+                          f"is held in memory at once), got {s.check_every}")
+    if not 0 <= s.seed < 2**32:
+        raise ConfigError(f"sampler.seed: must be a whole number from 0 to {2**32 - 1}, got {s.seed}")
 
 
 def _parse_model(tab: dict[str, Any]) -> ModelOptions:

@@ -16,8 +16,14 @@ from .config import RunConfig
 from .errors import InferError
 from .model import Model, Observations, build_model
 from .outputs import RUN_FILE, atomic_write_text, prepare_out_dir, write_json
-from .results import (Posterior, diagnostics, identifiability_notes, posterior_from_chain,
-                      summary_table, write_summary)
+from .results import (
+    Posterior,
+    diagnostics,
+    identifiability_notes,
+    posterior_from_chain,
+    summary_table,
+    write_summary,
+)
 from .sampling import SampleResult, run_sampler
 
 __all__ = ["FitOutcome", "fit_region", "fit_catalog", "run_hash", "load_fit", "select_region",
@@ -83,6 +89,9 @@ def fit_region(region, config: RunConfig, out_dir: str | Path, *, catalog_bytes:
     """
     out = Path(out_dir)
     rh = run_hash(catalog_bytes, region.name, config)
+    top = out                       # the outermost folder that prepare_out_dir may create
+    while not top.parent.exists() and top.parent != top:
+        top = top.parent
     created = prepare_out_dir(out, run_hash=rh, resume=resume)
     try:
         write_json(out / RUN_FILE, {"run_hash": rh, "region": region.name,
@@ -96,7 +105,7 @@ def fit_region(region, config: RunConfig, out_dir: str | Path, *, catalog_bytes:
                              info={"region": region.name, "source": str(region.source)})
     except BaseException:
         if created and not (out / "chain.h5").exists():
-            shutil.rmtree(out, ignore_errors=True)
+            shutil.rmtree(top, ignore_errors=True)   # with the parents made for it
         raise
     return finish_outputs(out, model, sample, region=region, config=config, plots=plots)
 

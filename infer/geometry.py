@@ -23,8 +23,9 @@ from dataclasses import dataclass
 import astropy.units as u
 import numpy as np
 from astropy.coordinates import SkyCoord, UnitSphericalRepresentation
+from scipy.sparse import coo_matrix
 from scipy.sparse.csgraph import minimum_spanning_tree
-from scipy.spatial import cKDTree
+from scipy.spatial import Delaunay, QhullError, cKDTree
 from scipy.spatial.distance import pdist, squareform
 
 __all__ = [
@@ -41,6 +42,32 @@ __all__ = [
 
 #: accepted values of the ``spacing`` option
 SPACING_METHODS = ("mst", "nearest")
+#: up to this many clumps the tree is found on the full distance matrix (N^2 memory);
+#: above, on the edges of the Delaunay triangulation, which contain the Euclidean
+#: minimum spanning tree (O(N) memory: 10 000 clumps would need 800 MB per dense matrix)
+_DENSE_MAX = 1500
+
+
+def _mst(scaled: np.ndarray):
+    """The minimum spanning tree (a sparse COO matrix) of the points ``scaled`` (N, 2)."""
+    n = len(scaled)
+    if n > _DENSE_MAX:
+        try:
+            simplices = Delaunay(scaled).simplices
+            edges = np.concatenate([simplices[:, [0, 1]], simplices[:, [1, 2]],
+                                    simplices[:, [0, 2]]])
+        except QhullError:   # all on a line: the tree joins neighbours along it
+            axis = np.linalg.svd(scaled - scaled.mean(axis=0), full_matrices=False)[2][0]
+            order = np.argsort(scaled @ axis)
+            edges = np.column_stack([order[:-1], order[1:]])
+        edges = np.unique(np.sort(edges, axis=1), axis=0)
+        delta = scaled[edges[:, 0]] - scaled[edges[:, 1]]
+        graph = coo_matrix((np.hypot(delta[:, 0], delta[:, 1]), (edges[:, 0], edges[:, 1])),
+                           shape=(n, n))
+        tree = minimum_spanning_tree(graph.tocsr()).tocoo()
+        if tree.nnz == n - 1:
+            return tree
+    return minimum_spanning_tree(squareform(pdist(scaled))).tocoo()
 
 
 def mean_position(coords: SkyCoord) -> SkyCoord:
@@ -213,13 +240,18 @@ def clump_spacings(
     n = len(pts)
     if n < 2:
         raise ValueError("spacings need at least two clumps")
+    # pairs from positions scaled to about unity: the squared distances of pdist and the
+    # tree neither overflow nor underflow (a zero distance would be a missing tree edge)
+    unit = float(np.max(np.abs(pts))) or 1.0
+    scaled = pts / unit
+    scaled = scaled - scaled.mean(axis=0)
     if method == "mst":
-        tree = minimum_spanning_tree(squareform(pdist(pts))).tocoo()
+        tree = _mst(scaled)
         pairs = np.column_stack([tree.row, tree.col]).astype(int)
         order = np.lexsort((pairs[:, 1], pairs[:, 0]))
         pairs = pairs[order]
     else:
-        _, idx = cKDTree(pts).query(pts, k=2)
+        _, idx = cKDTree(scaled).query(scaled, k=2)
         pairs = np.column_stack([np.arange(n), idx[:, 1]]).astype(int)
     delta = pts[pairs[:, 0]] - pts[pairs[:, 1]]
     lengths = np.hypot(delta[:, 0], delta[:, 1])
@@ -230,7 +262,7 @@ def clump_spacings(
         sy = u.Quantity(zeros if y_err is None else y_err).to_value(u.au)
         a = np.eye(2) if matrix is None else np.asarray(matrix, dtype=float)
         grad = (delta / lengths[:, None]) @ a          # rows: (A^T e)^T
-        var = (grad[:, 0] ** 2 * (sx[pairs[:, 0]] ** 2 + sx[pairs[:, 1]] ** 2)
-               + grad[:, 1] ** 2 * (sy[pairs[:, 0]] ** 2 + sy[pairs[:, 1]] ** 2))
-        errors = np.sqrt(var)
+        # sqrt of the sum of the four squared terms, without overflowing squares
+        errors = np.hypot(np.hypot(grad[:, 0] * sx[pairs[:, 0]], grad[:, 0] * sx[pairs[:, 1]]),
+                          np.hypot(grad[:, 1] * sy[pairs[:, 0]], grad[:, 1] * sy[pairs[:, 1]]))
     return Spacings(lengths=lengths * u.au, errors=errors * u.au, pairs=pairs, method=method)

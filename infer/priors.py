@@ -196,7 +196,10 @@ def _number(name: str, key: str, value: Any, unit: str, *, allow_zero: bool) -> 
                 raise ConfigError(f"{where}: expected a plain number, got unit {q.unit}")
             v = float(q.value)
         else:
-            v = float(value)
+            try:
+                v = float(value)
+            except OverflowError:
+                raise ConfigError(f"{where}: {value} is too large for a floating-point number") from None
     else:
         if isinstance(value, bool) or not isinstance(value, (int, float, str)):
             raise ConfigError(f'{where}: expected a number with a unit such as "1 {unit}", '
@@ -243,17 +246,22 @@ def parse_prior(name: str, entry: Any) -> Prior:
         if extra:
             raise ConfigError(f"priors.{name}: a fixed value takes no other keys "
                               f"(got {', '.join(sorted(extra))})")
-        return Prior(name, "fixed", {"value": _number(name, "value", entry["value"], unit,
-                                                       allow_zero=info.allow_zero)})
+        value = _number(name, "value", entry["value"], unit, allow_zero=info.allow_zero)
+        if name == "ionization" and value > 1.0:
+            raise ConfigError(f"priors.{name}.value: an ionization fraction is at most 1, got "
+                              f"{value:.4g}")
+        return Prior(name, "fixed", {"value": value})
     dist = entry.pop("dist", None)
     if dist is None:
         raise ConfigError(f"priors.{name}: give either value = ... or dist = one of "
                           f"{', '.join(DISTRIBUTIONS)}")
-    if dist not in DISTRIBUTIONS:
+    if not isinstance(dist, str) or dist not in DISTRIBUTIONS:
         raise ConfigError(f"priors.{name}: unknown dist {dist!r}; use one of {', '.join(DISTRIBUTIONS)}")
     if dist == "halfnormal" and "scale_dex" in entry:
         if unit != "dex":
             raise ConfigError(f"priors.{name}: scale_dex is only for the scatter parameters; use scale")
+        if "scale" in entry:
+            raise ConfigError(f"priors.{name}: give scale_dex or scale, not both")
         entry["scale"] = entry.pop("scale_dex")
     needed = DISTRIBUTIONS[dist]
     missing = [k for k in needed if k not in entry]
@@ -278,6 +286,9 @@ def parse_prior(name: str, entry: Any) -> Prior:
         raise ConfigError(f"priors.{name}: loguniform needs low > 0")
     if dist in ("normal", "truncnormal") and args["sd"] <= 0:
         raise ConfigError(f"priors.{name}: sd must be positive")
+    if name == "ionization" and args.get("high", 0.0) > 1.0:
+        raise ConfigError(f"priors.{name}.high: an ionization fraction is at most 1, got "
+                          f"{args['high']:.4g}")
     if dist == "truncnormal" and args["high"] <= 0:
         raise ConfigError(f"priors.{name}: the truncated range has no positive values")
     if dist == "normal" and args["mean"] + 8 * args["sd"] <= 0:
@@ -289,7 +300,10 @@ def parse_prior(name: str, entry: Any) -> Prior:
 def _mean(name: str, value: Any, unit: str) -> float:
     """A mean may be any finite number (negative allowed, e.g. a wide normal)."""
     if unit in ("", "dex"):
-        v = float(value) if isinstance(value, (int, float)) and not isinstance(value, bool) else None
+        try:
+            v = float(value) if isinstance(value, (int, float)) and not isinstance(value, bool) else None
+        except OverflowError:  # an integer beyond the float range
+            v = np.inf
         if v is None:
             raise ConfigError(f"priors.{name}.mean: expected a number, got {value!r}")
     else:

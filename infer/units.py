@@ -58,7 +58,8 @@ def parse_quantity(value: Any, *, name: str, unit: u.UnitBase | str) -> u.Quanti
         if value.unit == u.dimensionless_unscaled and target.physical_type != "dimensionless":
             raise InferError(f"{name}: {value.value.tolist()!r} has no unit; pass e.g. {example}")
         try:
-            return value.to(target)
+            with np.errstate(over="ignore"):   # an overflow gives inf; callers refuse it
+                return value.to(target)
         except u.UnitConversionError:
             raise InferError(
                 f"{name}: unit {value.unit} is not a {target.physical_type} "
@@ -66,9 +67,11 @@ def parse_quantity(value: Any, *, name: str, unit: u.UnitBase | str) -> u.Quanti
             ) from None
     if target == u.dimensionless_unscaled or target.physical_type == "dimensionless":
         try:
+            if value is None:   # numpy would make it NaN
+                raise TypeError
             arr = np.asarray(value, dtype=float)
-        except (TypeError, ValueError):
-            raise InferError(f"{name}: expected a number, got {value!r}") from None
+        except (TypeError, ValueError, OverflowError):
+            raise InferError(f"{name}: expected a number, got {_short(value)}") from None
         return u.Quantity(arr, target)
     raise InferError(f"{name}: {value!r} has no unit; pass a Quantity or a string like {example}")
 
@@ -81,7 +84,8 @@ def to_cgs(value: Any, *, name: str, unit: u.UnitBase | str) -> np.ndarray:
     q = parse_quantity(value, name=name, unit=unit)
     arr = np.asarray(q.to_value(u.Unit(unit)), dtype=float)
     if not np.all(np.isfinite(arr)):
-        raise InferError(f"{name}: contains NaN or infinite values; pass finite numbers")
+        raise InferError(f"{name}: contains NaN or infinite values (or values beyond the "
+                         f"floating-point range in {u.Unit(unit).to_string()}); pass finite numbers")
     return arr
 
 
@@ -104,6 +108,12 @@ _EXAMPLES = {
     "time": '"1e5 yr"',
     "angle": '"45 deg"',
 }
+
+
+def _short(value: Any) -> str:
+    """repr of a value for a one-line message, shortened if long."""
+    text = repr(value)
+    return text if len(text) <= 60 else text[:40] + "..." + text[-10:]
 
 
 def _example(unit: u.UnitBase) -> str:
