@@ -204,7 +204,7 @@ class Model:
             inv_mu2 = 1.0 / phys["mu0"] ** 2
         fw = forward(phys["sigma"], phys["temperature"], inv_mu2=inv_mu2, eta_total=e_ad + e_ohm,
                      kappa=phys["kappa"], p_ext=phys["p_ext"], mu_gas=self.options.mu_gas,
-                     fragment_shape=self.options.fragment_shape)
+                     fragment_shape=self.options.fragment_shape, eq=eq)
         return v, phys, fw
 
     # --------------------------------------------------------------- densities

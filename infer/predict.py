@@ -20,7 +20,7 @@ from . import dispersion
 from .conditions import FRAGMENT_SHAPES, Conditions, resolve_conditions
 from .constants import AU, M_JUP, MU_GAS, YR, G
 from .errors import InferError
-from .sheet import equilibrium
+from .sheet import Equilibrium, equilibrium
 
 __all__ = ["Forward", "forward", "forward_conditions", "Prediction", "predict"]
 
@@ -48,7 +48,8 @@ class Forward:
 
 
 def forward(sigma, temperature, *, inv_mu2, eta_total, kappa=0.0, p_ext=0.0,
-            mu_gas: float = MU_GAS, fragment_shape: str = "square") -> Forward:
+            mu_gas: float = MU_GAS, fragment_shape: str = "square",
+            eq: Equilibrium | None = None) -> Forward:
     """Evaluate the thin-sheet model on cgs arrays (no validation, no Quantity).
 
     Parameters
@@ -69,8 +70,11 @@ def forward(sigma, temperature, *, inv_mu2, eta_total, kappa=0.0, p_ext=0.0,
         Mean particle mass in m_H.
     fragment_shape : {"square", "disk"}
         Fragment mass Sigma lambda^2, or Sigma pi (lambda/2)^2.
+    eq : Equilibrium, optional
+        The sheet's equilibrium for these inputs, if the caller has it already.
     """
-    eq = equilibrium(sigma, temperature, p_ext, mu_gas=mu_gas)
+    if eq is None:
+        eq = equilibrium(sigma, temperature, p_ext, mu_gas=mu_gas)
     t0, l0 = eq.time, eq.length
     p = dispersion.sheet_params(
         inv_mu2=inv_mu2, p_ext=eq.p_tilde, kappa=np.asarray(kappa, dtype=float) * t0,
