@@ -23,21 +23,7 @@ from infer.cli import main
 
 LAMBDA_AU = 50.0
 
-#: the conditions of the synthetic ring (those of the architecture's example config)
-BASE_CONFIG = {
-    "model": {"diffusion": "ionization", "spacing": "mst"},
-    "priors": {
-        "mass_to_flux": {"dist": "loguniform", "low": 0.1, "high": 10},
-        "ionization": {"dist": "loguniform", "low": 1e-14, "high": 1e-6},
-        "surface_density": {"dist": "lognormal", "median": "60 g/cm2", "sigma_dex": 0.2},
-        "temperature": {"dist": "normal", "mean": "35 K", "sd": "7 K"},
-        "stellar_mass": {"value": "0.5 solMass"},
-        "radius": {"value": "80 au"},
-        "external_pressure": {"value": "0 dyn/cm2"},
-        "spacing_scatter": {"dist": "halfnormal", "scale_dex": 0.2},
-        "mass_scatter": {"dist": "halfnormal", "scale_dex": 0.3},
-    },
-}
+from conftest import BASE_CONFIG  # noqa: E402  (the architecture's example config)
 
 
 def _write_catalog(path: Path, seed: int = 4) -> Path:
