@@ -15,10 +15,10 @@ from pathlib import Path
 import emcee
 import numpy as np
 
-from infer.catalog import read_catalog
-from infer.config import load_config
-from infer.model import Observations, build_model
-from infer.sampling import _start, autocorr_times
+from infer.catalog.regions import read_catalog
+from infer.inference.config import load_config
+from infer.inference.model import Observations, build_model
+from infer.inference.sampler import _start, autocorr_times
 
 ROOT = Path(__file__).resolve().parents[1]
 

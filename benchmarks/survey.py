@@ -6,17 +6,17 @@ Run from the project root::
 
 The demo disk (``catalogs/demo_disk.ecsv``, 8 clumps) is copied into one
 catalog as ``--regions`` groups ``disk-1``, ``disk-2``, ...; each gets its own
-seed (:func:`infer.survey.region_seed`), so the eight chains differ but cost
+seed (:func:`infer.pipeline.survey.region_seed`), so the eight chains differ but cost
 the same. The config is ``catalogs/demo_disk.toml`` with ``--max-steps`` and a
 convergence rule that never fires (tau_factor 1e9), so every chain runs
 exactly ``--max-steps`` steps in both runs; per-region figures are off in both.
 
 Measured in one run, in this order:
 
-* sequential: :func:`infer.fitting.fit_region` on each region in this process;
+* sequential: :func:`infer.pipeline.fit.fit_region` on each region in this process;
 * cluster start: a ``LocalCluster`` of ``--workers`` processes (one thread each),
   warmed up by importing the package on every worker;
-* parallel: :func:`infer.survey.run_survey` on that cluster (reading, task
+* parallel: :func:`infer.pipeline.survey.run_survey` on that cluster (reading, task
   submission, fits, the survey table and figure);
 * scheduler overhead: the mean round trip of a trivial task (submit, wait for
   the result) and the mean gap between consecutive tasks on a worker (from the
@@ -52,8 +52,8 @@ def _noop(x):
 
 
 def _warm() -> str:
-    import infer.fitting  # noqa: F401 - the imports a fit needs, paid once per worker
-    import infer.survey  # noqa: F401
+    import infer.pipeline.fit  # noqa: F401 - the imports a fit needs, paid once per worker
+    import infer.pipeline.survey  # noqa: F401
 
     return "ok"
 
@@ -81,11 +81,11 @@ def main() -> None:
 
     from dask.distributed import Client, LocalCluster, get_task_stream
 
-    from infer.catalog import read_catalog
-    from infer.chainfile import read_chain
-    from infer.config import load_config
-    from infer.fitting import fit_region
-    from infer.survey import region_config, run_survey
+    from infer.catalog.regions import read_catalog
+    from infer.inference.chainfile import read_chain
+    from infer.inference.config import load_config
+    from infer.pipeline.fit import fit_region
+    from infer.pipeline.survey import region_config, run_survey
 
     tmp = Path(tempfile.mkdtemp(prefix="infer-bench-survey-"))
     try:

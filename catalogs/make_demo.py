@@ -14,7 +14,7 @@ rewrites byte-identical files:
   ``group`` each, with per-group metadata.
 
 The true conditions go into each file's header (``true_parameters``), together
-with the forward-model values they imply (``derived``, from :func:`infer.predict`).
+with the forward-model values they imply (``derived``, from :func:`infer.physics.predict`).
 """
 
 from __future__ import annotations
@@ -28,8 +28,8 @@ from astropy.coordinates import SkyCoord
 from astropy.table import Table
 
 from infer import predict
-from infer.dustmass import dust_flux
-from infer.geometry import project_to_sky
+from infer.catalog.dustmass import dust_flux
+from infer.catalog.geometry import project_to_sky
 
 SEED = 20240611
 HERE = Path(__file__).resolve().parent

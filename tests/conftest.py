@@ -35,7 +35,7 @@ def config_dict():
 @pytest.fixture
 def small_obs():
     from infer.constants import AU, M_JUP
-    from infer.model import Observations
+    from infer.inference.model import Observations
 
     rng = np.random.default_rng(0)
     return Observations.from_arrays(

@@ -32,8 +32,8 @@ NAMES = ("a", "b", "c")
 
 def run(chain_path, *, seed=3, max_steps=3000, resume=False, walkers=16, check_every=50,
         tau_factor=50.0):
-    from infer.config import SamplerOptions
-    from infer.sampling import run_sampler
+    from infer.inference.config import SamplerOptions
+    from infer.inference.sampler import run_sampler
 
     opts = SamplerOptions(walkers=walkers, max_steps=max_steps, seed=seed, check_every=check_every,
                           tau_factor=tau_factor)

@@ -623,7 +623,7 @@ def test_tree_on_triangulation_equals_tree_on_all_pairs():
     from scipy.sparse.csgraph import minimum_spanning_tree
     from scipy.spatial.distance import pdist, squareform
 
-    from infer import geometry
+    from infer.catalog import geometry
 
     rng = np.random.default_rng(4)
     n = geometry._DENSE_MAX + 300

@@ -1,4 +1,4 @@
-"""Adversarial run configurations: infer.config.parse_config and load_config.
+"""Adversarial run configurations: infer.inference.config.parse_config and load_config.
 
 Random nested values at every key, random documents, random bytes in a file,
 empty files, binary files named .toml, huge numbers, NaN and infinities and
@@ -21,9 +21,9 @@ from conftest import BASE_CONFIG
 from hypothesis import HealthCheck, given, settings
 from hypothesis import strategies as st
 
-from infer.config import ModelOptions, RunConfig, SamplerOptions, load_config, parse_config
 from infer.errors import ConfigError
-from infer.priors import DISTRIBUTIONS, PARAMETERS
+from infer.inference.config import ModelOptions, RunConfig, SamplerOptions, load_config, parse_config
+from infer.inference.priors import DISTRIBUTIONS, PARAMETERS
 
 N_MUTATE, N_DOCS, N_BYTES = 300, 150, 150
 FUZZ = settings(max_examples=N_MUTATE, deadline=None, derandomize=True, database=None,

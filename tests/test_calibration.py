@@ -12,10 +12,10 @@ import numpy as np
 import pytest
 from scipy import stats
 
-from infer.config import parse_config
 from infer.constants import AU, M_JUP
-from infer.model import Observations, build_model
-from infer.sampling import run_sampler
+from infer.inference.config import parse_config
+from infer.inference.model import Observations, build_model
+from infer.inference.sampler import run_sampler
 
 pytestmark = pytest.mark.slow
 

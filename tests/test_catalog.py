@@ -17,7 +17,7 @@ import pytest
 from astropy.coordinates import SkyCoord
 from astropy.table import Table
 
-from infer.catalog import Region, check_catalog, read_catalog
+from infer.catalog.regions import Region, check_catalog, read_catalog
 from infer.errors import CatalogError
 
 RING = 8

@@ -1,6 +1,6 @@
 """Property-based checks of the catalog reader over malformed files.
 
-Whatever the bytes, :func:`infer.catalog.read_catalog` either returns regions
+Whatever the bytes, :func:`infer.catalog.regions.read_catalog` either returns regions
 that account for every row (kept or listed as excluded) or raises a
 :class:`~infer.errors.CatalogError` with a message naming the file -- never
 another exception type.
@@ -19,7 +19,7 @@ from astropy.table import Table
 from hypothesis import HealthCheck, given, settings
 from hypothesis import strategies as st
 
-from infer.catalog import read_catalog
+from infer.catalog.regions import read_catalog
 from infer.errors import CatalogError
 
 FUZZ = settings(max_examples=40, deadline=None, derandomize=True,

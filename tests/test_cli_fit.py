@@ -82,7 +82,7 @@ def test_refuses_to_mix_runs_and_resumes(demo, tmp_path, capsys):
     assert _fit(cat, cfg, out, "--no-plots", "--seed", "9") == 2
     assert "different run" in capsys.readouterr().err
     # --resume towards a longer chain continues the saved one
-    from infer.chainfile import read_chain
+    from infer.inference.chainfile import read_chain
 
     first = read_chain(out / "chain.h5").chain.copy()
     assert main(["fit", str(cat), "--config", str(cfg), "--out", str(out), "--walkers", "16",
@@ -143,8 +143,8 @@ def test_fit_killed_then_resumed(demo, tmp_path):
     cmd = [sys.executable, "-m", "infer", "fit", str(cat), "--config", str(cfg), "--out", str(out),
            "--walkers", "16", "--max-steps", "5000", "--quiet", "--no-plots"]
     proc = subprocess.Popen(cmd, env=dict(os.environ, PYTHONPATH=str(ROOT)))
-    from infer.chainfile import read_chain
     from infer.errors import ChainError
+    from infer.inference.chainfile import read_chain
 
     deadline = time.time() + 120
     n = 0

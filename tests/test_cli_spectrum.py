@@ -1,4 +1,4 @@
-"""``infer spectrum`` and :mod:`infer.spectrum`: CSV contents, figures, errors, atomic writes.
+"""``infer spectrum`` and :mod:`infer.physics.spectrum`: CSV contents, figures, errors, atomic writes.
 
 Stable conditions are refused (exit 2, no file), as documented in
 infer/commands/spectrum.py.
@@ -15,7 +15,7 @@ import pytest
 
 from infer import InferError, predict
 from infer.cli import main
-from infer.spectrum import growth_spectrum, write_spectrum
+from infer.physics.spectrum import growth_spectrum, write_spectrum
 
 M_H = 1.00784 * u.u          # standard atomic weight of H (IUPAC), physics.md convention
 DISK = ["--surface-density", "60 g/cm2", "--temperature", "35 K", "--mass-to-flux", "1.6",
@@ -117,7 +117,7 @@ def test_figure_content():
     # the figure marks the fastest and thermal wavelengths and shades the band
     spec = growth_spectrum(surface_density="60 g/cm2", temperature="35 K", mass_to_flux=1.6,
                            ionization=1e-10, stellar_mass="0.5 solMass", radius="80 au")
-    from infer.spectrum import spectrum_figure
+    from infer.physics.spectrum import spectrum_figure
     fig = spectrum_figure(spec)
     ax = fig.axes[0]
     assert ax.get_xscale() == "log" and ax.get_yscale() == "log"
@@ -138,7 +138,7 @@ def test_existing_file_is_replaced_atomically(tmp_path, capsys):
 
 
 def test_failure_while_writing_leaves_old_file_and_no_temporary(tmp_path, monkeypatch):
-    import infer.spectrum as spectrum_mod
+    import infer.physics.spectrum as spectrum_mod
 
     class Broken:
         def savefig(self, fh, **kw):

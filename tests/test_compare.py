@@ -18,8 +18,8 @@ import pytest
 from scipy import stats
 
 from infer.cli import main
-from infer.compare import LooResult, compare_fits, compare_loo, psis_loo
 from infer.errors import InferError
+from infer.inference.comparison import LooResult, compare_fits, compare_loo, psis_loo
 
 pytest.importorskip("arviz_stats")
 

@@ -6,9 +6,9 @@ import numpy as np
 import pytest
 from scipy import stats
 
-from infer.config import load_config, parse_config
 from infer.errors import ConfigError
-from infer.priors import parse_prior
+from infer.inference.config import load_config, parse_config
+from infer.inference.priors import parse_prior
 
 
 def test_architecture_example_parses(config_dict):

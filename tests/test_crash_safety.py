@@ -13,8 +13,8 @@ from pathlib import Path
 import numpy as np
 import pytest
 
-from infer.chainfile import read_chain
 from infer.errors import ChainError, InferError
+from infer.inference.chainfile import read_chain
 
 HERE = Path(__file__).parent
 sys.path.insert(0, str(HERE))
@@ -84,7 +84,7 @@ def test_full_disk_keeps_the_saved_chain(tmp_path, monkeypatch):
     gt.run(path, max_steps=100, check_every=50)
     before = read_chain(path)
 
-    import infer.chainfile as cf
+    import infer.inference.chainfile as cf
 
     def full(*a, **k):
         raise OSError(errno.ENOSPC, "No space left on device")
@@ -102,7 +102,7 @@ def test_full_disk_keeps_the_saved_chain(tmp_path, monkeypatch):
 
 
 def test_unwritable_output_folder_is_a_clear_error(tmp_path):
-    from infer.outputs import atomic_write_text, prepare_out_dir
+    from infer.outputs.files import atomic_write_text, prepare_out_dir
 
     blocker = tmp_path / "a_file"
     blocker.write_text("x")

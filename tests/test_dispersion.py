@@ -18,7 +18,7 @@ import numpy as np
 import pytest
 from scipy.optimize import minimize_scalar
 
-from infer import dispersion as dp
+from infer.physics import dispersion as dp
 
 EPS = np.finfo(float).eps
 

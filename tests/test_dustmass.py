@@ -16,7 +16,7 @@ import numpy as np
 import pytest
 from astropy.modeling.models import BlackBody
 
-from infer.dustmass import (
+from infer.catalog.dustmass import (
     DEFAULT_GAS_TO_DUST,
     DEFAULT_OPACITY,
     DEFAULT_OPACITY_INDEX,

@@ -15,7 +15,7 @@ import numpy as np
 import pytest
 
 from infer.errors import InferError
-from infer.forecast import forecast, kish_ess, parse_precision, weighted_quantiles
+from infer.inference.forecast import forecast, kish_ess, parse_precision, weighted_quantiles
 
 N = 20_000
 

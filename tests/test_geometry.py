@@ -13,7 +13,7 @@ import pytest
 from astropy.coordinates import SkyCoord
 from astropy.coordinates.matrix_utilities import rotation_matrix
 
-from infer.geometry import (
+from infer.catalog.geometry import (
     angular_to_length,
     clump_spacings,
     deproject,

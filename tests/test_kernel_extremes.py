@@ -1,6 +1,6 @@
 """Numerical robustness of the kernel over extreme but legal conditions.
 
-``infer.predict`` runs on large random arrays of conditions (log-uniform draws,
+``infer.physics.predict`` runs on large random arrays of conditions (log-uniform draws,
 fixed seed) spanning surface densities 1e-3..1e4 g/cm2, temperatures 5..2000 K,
 mass-to-flux ratios 1e-3..1e3, diffusivities 0 or 1..1e24 cm2/s, no rotation,
 a Keplerian orbit, or an epicyclic frequency set from a Toomre Q up to and just
@@ -10,7 +10,7 @@ gravitational pressure pi G Sigma^2 / 2. With every warning turned into an error
 * the results are finite and positive where a mode grows and NaN where none does;
 * the growth rate at the reported wavenumber is the largest real part of the
   roots numpy.roots finds for the cubic (reference library; coefficients from
-  infer.dispersion.coefficients on the dimensionless parameters of physics.md
+  infer.physics.dispersion.coefficients on the dimensionless parameters of physics.md
   sec. 4, computed here from the cgs inputs);
 * no wavenumber of a dense log-k scan across the closed-form band grows faster
   than the reported fastest mode;
@@ -32,8 +32,8 @@ import astropy.units as u
 import numpy as np
 import pytest
 
-from infer import dispersion as dp
 from infer import predict
+from infer.physics import dispersion as dp
 
 EPS = np.finfo(float).eps
 G = const.G.cgs.value
@@ -101,7 +101,7 @@ def draw(n, seed):
 
 
 def run_predict(c, sel):
-    """infer.predict on the sets ``sel``: Keplerian ones by stellar mass and radius."""
+    """infer.physics.predict on the sets ``sel``: Keplerian ones by stellar mass and radius."""
     out = {k: np.empty(sel.sum()) for k in ("wavelength", "growth_time", "fragment_mass",
                                             "thermal_wavelength", "toomre_q")}
     out["unstable"] = np.empty(sel.sum(), dtype=bool)

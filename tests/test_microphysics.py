@@ -13,7 +13,7 @@ import pytest
 
 from infer import predict
 from infer.constants import OHM_COEFF, SIGMA_W_IN
-from infer.microphysics import (
+from infer.physics.microphysics import (
     ambipolar_diffusivity,
     collision_time,
     cosmic_ray_ionization,
@@ -21,7 +21,7 @@ from infer.microphysics import (
     neutral_density,
     ohmic_diffusivity,
 )
-from infer.sheet import sound_speed_sq
+from infer.physics.sheet import sound_speed_sq
 
 M_H = (1.00784 * u.u).cgs.value        # standard atomic weight of H (IUPAC), g
 

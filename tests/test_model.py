@@ -9,8 +9,8 @@ from hypothesis import HealthCheck, given, settings
 from hypothesis import strategies as st
 from scipy import stats
 
-from infer.config import parse_config
-from infer.model import build_model
+from infer.inference.config import parse_config
+from infer.inference.model import build_model
 
 
 def _model(config_dict, obs, **model_opts):

@@ -1,4 +1,4 @@
-"""Figures of a fit (infer.plots) and the ``infer plot`` command.
+"""Figures of a fit (infer.outputs.figures) and the ``infer plot`` command.
 
 The fit is synthetic and small: clump spacings around 50 au and masses
 around 20 Jupiter masses, a Posterior built from prior draws (no sampler
@@ -16,13 +16,13 @@ import numpy as np
 import pytest
 from scipy import stats
 
-from infer import plots
-from infer.chainfile import ChainData
 from infer.cli import main
-from infer.config import parse_config
 from infer.constants import AU, M_JUP
-from infer.model import Observations, build_model
-from infer.results import Posterior
+from infer.inference.chainfile import ChainData
+from infer.inference.config import parse_config
+from infer.inference.model import Observations, build_model
+from infer.inference.posterior import Posterior
+from infer.outputs import figures as plots
 
 LN10 = np.log(10.0)
 
@@ -237,7 +237,7 @@ def test_infer_plot_writes_the_four_figures(tmp_path, monkeypatch, capsys):
         calls.append(str(out_dir))
         return None, model, region, chain, tau
 
-    monkeypatch.setattr("infer.fitting.load_fit", fake_load_fit)
+    monkeypatch.setattr("infer.pipeline.fit.load_fit", fake_load_fit)
     (tmp_path / "chain.h5").write_bytes(b"placeholder")
     assert main(["plot", str(tmp_path)]) == 0
     assert calls == [str(tmp_path)]
@@ -259,7 +259,7 @@ def test_infer_plot_writes_the_four_figures(tmp_path, monkeypatch, capsys):
 def test_infer_plot_format_option_reaches_the_writer(tmp_path, monkeypatch, capsys):
     model = build_model(_config("ideal", scatter=0.2, use_masses=False), _observations())
     chain = _fake_chain(model, _prior_theta(model, n=160))
-    monkeypatch.setattr("infer.fitting.load_fit", lambda d: (None, model, "r", chain,
+    monkeypatch.setattr("infer.pipeline.fit.load_fit", lambda d: (None, model, "r", chain,
                                                              np.ones(model.ndim)))
     seen = {}
 
@@ -267,7 +267,7 @@ def test_infer_plot_format_option_reaches_the_writer(tmp_path, monkeypatch, caps
         seen.update(out_dir=out_dir, n=post.n, region=region, formats=formats)
         return [tmp_path / "corner.png"]
 
-    monkeypatch.setattr("infer.plots.write_figures", fake_write)
+    monkeypatch.setattr("infer.outputs.figures.write_figures", fake_write)
     assert main(["plot", str(tmp_path), "--format", " PNG, png"]) == 0
     assert seen["formats"] == ("png",) and seen["region"] == "r" and seen["n"] > 0
     assert capsys.readouterr().out.strip() == str(tmp_path / "corner.png")

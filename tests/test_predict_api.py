@@ -1,4 +1,4 @@
-"""The public ``infer.predict``: units, broadcasting, stable conditions, bad input.
+"""The public ``infer.physics.predict``: units, broadcasting, stable conditions, bad input.
 
 Unit conversions are checked against astropy.units (reference library): the
 same physical condition stated in different units must give the same answer.

@@ -46,7 +46,7 @@ def _write_catalog(path: Path, seed: int = 4) -> Path:
 
 
 def _config(diffusion: str, walkers: int, steps: int, seed: int):
-    from infer.config import parse_config
+    from infer.inference.config import parse_config
 
     d = copy.deepcopy(BASE_CONFIG)
     d["model"]["diffusion"] = diffusion
@@ -59,7 +59,7 @@ def _config(diffusion: str, walkers: int, steps: int, seed: int):
 @pytest.fixture(scope="module")
 def fits(tmp_path_factory):
     """One tiny fit per diffusion mode (no figures: the report must make them)."""
-    from infer.fitting import fit_catalog
+    from infer.pipeline.fit import fit_catalog
 
     root = tmp_path_factory.mktemp("report")
     cat = _write_catalog(root / "ring.ecsv")
@@ -109,8 +109,8 @@ def test_report_bundle(fits, tmp_path, capsys):
 
 
 def test_band_matches_flux_frozen_closed_form():
-    from infer.model import Observations, build_model
-    from infer.spectrum_band import growth_rate_grid
+    from infer.inference.model import Observations, build_model
+    from infer.outputs.band import growth_rate_grid
 
     model = build_model(_config("ideal", 10, 100, 1),
                         Observations.from_arrays(spacings=[7e14], masses=[3e31]))
@@ -135,9 +135,9 @@ def test_band_matches_flux_frozen_closed_form():
 
 @pytest.mark.slow
 def test_band_quantiles_and_peak(fits):
-    from infer.fitting import load_fit
-    from infer.results import posterior_from_chain
-    from infer.spectrum_band import growth_rate_grid, spectrum_band
+    from infer.inference.posterior import posterior_from_chain
+    from infer.outputs.band import growth_rate_grid, spectrum_band
+    from infer.pipeline.fit import load_fit
 
     _, model, _, chain, tau = load_fit(fits["ionization"])
     post = posterior_from_chain(model, chain, tau)

@@ -13,8 +13,8 @@ import numpy as np
 import pytest
 from scipy import stats
 
-from infer.chainfile import read_chain
 from infer.errors import ChainError
+from infer.inference.chainfile import read_chain
 
 HERE = Path(__file__).parent
 sys.path.insert(0, str(HERE))
@@ -74,8 +74,8 @@ def test_resume_continues_the_same_run(tmp_path):
 
 
 def test_resume_refuses_a_different_run(tmp_path):
-    from infer.config import SamplerOptions
-    from infer.sampling import run_sampler
+    from infer.inference.config import SamplerOptions
+    from infer.inference.sampler import run_sampler
 
     gt.run(tmp_path / "chain.h5", max_steps=100)
     with pytest.raises(ChainError, match="different catalog or config"):

@@ -13,8 +13,9 @@ import numpy as np
 import pytest
 from scipy.integrate import solve_ivp
 
-from infer import dispersion, predict
-from infer.sheet import CRITICAL_MASS_TO_FLUX, equilibrium
+from infer import predict
+from infer.physics import dispersion
+from infer.physics.sheet import CRITICAL_MASS_TO_FLUX, equilibrium
 
 # Mass of a hydrogen atom: standard atomic weight 1.00784 u (IUPAC), the
 # convention of physics.md; astropy has no m_H constant.

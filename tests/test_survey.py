@@ -22,14 +22,21 @@ import numpy as np
 import pytest
 from astropy.table import Table, vstack
 
-from infer.catalog import read_catalog
-from infer.chainfile import read_chain
+from infer.catalog.regions import read_catalog
 from infer.cli import main
-from infer.config import load_config
 from infer.errors import ChainError, InferError
-from infer.fitting import fit_region, run_hash
-from infer.priors import Prior
-from infer.survey import folder_names, read_regions, region_config, region_seed, run_survey, survey_table
+from infer.inference.chainfile import read_chain
+from infer.inference.config import load_config
+from infer.inference.priors import Prior
+from infer.pipeline.fit import fit_region, run_hash
+from infer.pipeline.survey import (
+    folder_names,
+    read_regions,
+    region_config,
+    region_seed,
+    run_survey,
+    survey_table,
+)
 
 pytest.importorskip("dask.distributed")
 
@@ -232,7 +239,7 @@ def test_rerun_skips_finished_regions(survey, catalogs, config):
 
 def test_raised_max_steps_continues_a_finished_chain(survey, catalogs, config, tmp_path):
     """A finished, unconverged region is continued (not refitted) when max_steps grows."""
-    from infer.survey import _fit_task, _Task
+    from infer.pipeline.survey import _fit_task, _Task
 
     out, _, _ = survey
     shutil.copytree(out / FOLDERS[0], tmp_path / FOLDERS[0])
@@ -260,7 +267,7 @@ def test_lost_worker_region_is_refitted(survey, sequential):
 
 def test_interrupted_region_resumes_from_its_checkpoint(catalogs, config, sequential, tmp_path):
     """A partial folder left by a lost task is continued from its checkpoint, to the same chain."""
-    from infer.survey import _fit_task, _Task
+    from infer.pipeline.survey import _fit_task, _Task
 
     region = read_catalog(catalogs[0])[1]
     data = catalogs[0].read_bytes()

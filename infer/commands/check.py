@@ -10,7 +10,7 @@ from typing import Any
 
 import astropy.units as u
 
-from ..catalog import SPACING_METHODS, check_catalog
+from ..catalog.regions import SPACING_METHODS, check_catalog
 from ..errors import ConfigError
 
 __all__ = ["add_arguments", "run", "format_text"]
@@ -56,9 +56,9 @@ def _toml_catalog_options(path: str | Path) -> tuple[dict[str, Any], str]:
 
 def _catalog_options(path: str | Path) -> tuple[dict[str, Any], str]:
     try:
-        from ..config import catalog_options  # the full run-config parser, when present
+        from ..inference.config import catalog_options  # the full run-config parser, when present
     except ImportError as exc:
-        if isinstance(exc, ModuleNotFoundError) and exc.name != "infer.config":
+        if isinstance(exc, ModuleNotFoundError) and exc.name != "infer.inference.config":
             raise
         return _toml_catalog_options(path)
     return catalog_options(path)
@@ -104,7 +104,7 @@ def _block(d: dict[str, Any], indent: str = "  ") -> list[str]:
 
 
 def format_text(d: dict[str, Any]) -> str:
-    """Human-readable summary of a :func:`infer.catalog.check_catalog` result."""
+    """Human-readable summary of a :func:`infer.catalog.regions.check_catalog` result."""
     lines = [f"Catalog {d['file']}: {d['n_clumps']} clumps"
              + (f" in {d['n_regions']} regions" if d["n_regions"] > 1 else "")]
     if d["n_regions"] > 1:

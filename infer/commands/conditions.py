@@ -10,7 +10,7 @@ from ..errors import InferError
 
 __all__ = ["add_condition_arguments", "conditions_from_args", "OPTIONS"]
 
-#: keyword of infer.predict -> (command-line option, help)
+#: keyword of infer.physics.predict -> (command-line option, help)
 OPTIONS: dict[str, tuple[str, str]] = {
     "surface_density": ("--surface-density", 'total gas surface density, e.g. "80 g/cm2"'),
     "column_density": ("--column-density", 'H2 column density instead, e.g. "2e25 cm-2"'),
@@ -42,7 +42,7 @@ def add_condition_arguments(parser: argparse.ArgumentParser) -> None:
 
 
 def conditions_from_args(args: argparse.Namespace) -> dict[str, Any]:
-    """Keyword arguments for :func:`infer.predict` from parsed options."""
+    """Keyword arguments for :func:`infer.physics.predict` from parsed options."""
     kwargs = {key: getattr(args, key) for key in OPTIONS if getattr(args, key) is not None}
     kwargs["mu_gas"] = args.mu_gas
     kwargs["fragment_shape"] = args.fragment_shape

@@ -6,7 +6,7 @@ import argparse
 import sys
 from pathlib import Path
 
-from ..config import load_config
+from ..inference.config import load_config
 
 __all__ = ["add_arguments", "run"]
 
@@ -27,7 +27,7 @@ def add_arguments(parser: argparse.ArgumentParser) -> None:
 
 
 def run(args: argparse.Namespace) -> int:
-    from ..fitting import fit_catalog
+    from ..pipeline.fit import fit_catalog
 
     config = load_config(args.config).with_sampler(seed=args.seed, walkers=args.walkers,
                                                    max_steps=args.max_steps)

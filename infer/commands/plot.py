@@ -30,9 +30,9 @@ def parse_formats(text: str) -> tuple[str, ...]:
 
 def run(args: argparse.Namespace) -> int:
     formats = parse_formats(args.format)
-    from ..fitting import load_fit
-    from ..plots import write_figures
-    from ..results import posterior_from_chain
+    from ..inference.posterior import posterior_from_chain
+    from ..outputs.figures import write_figures
+    from ..pipeline.fit import load_fit
 
     _, model, region, chain, tau = load_fit(args.dir)
     post = posterior_from_chain(model, chain, tau)

@@ -8,7 +8,7 @@ import json
 import numpy as np
 
 from ..errors import InferError
-from ..predict import predict
+from ..physics.predict import predict
 from .conditions import add_condition_arguments, conditions_from_args, option_message
 
 __all__ = ["add_arguments", "run"]

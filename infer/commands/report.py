@@ -14,7 +14,7 @@ from ..errors import InferError
 
 __all__ = ["add_arguments", "run"]
 
-#: option suffix -> measured quantity of :func:`infer.forecast.forecast`
+#: option suffix -> measured quantity of :func:`infer.inference.forecast.forecast`
 _FORECASTS = {"field": "field", "temperature": "temperature", "column_density": "column_density"}
 
 
@@ -36,7 +36,7 @@ def add_arguments(parser: argparse.ArgumentParser) -> None:
 
 
 def run(args: argparse.Namespace) -> int:
-    from ..forecast import parse_precision
+    from ..inference.forecast import parse_precision
 
     fcs = []
     for key, measured in _FORECASTS.items():
@@ -55,7 +55,7 @@ def run(args: argparse.Namespace) -> int:
         raise InferError("--out applies to --compare; a report is written into its fit folder")
     if args.forecast_draws < 10:
         raise InferError(f"--forecast-draws: must be at least 10, got {args.forecast_draws}")
-    from ..report import build_report, write_report
+    from ..outputs.report import build_report, write_report
 
     rep = build_report(args.dirs[0], forecasts=fcs, n_draws=args.forecast_draws, seed=args.seed)
     written = write_report(rep)
@@ -70,8 +70,8 @@ def run(args: argparse.Namespace) -> int:
 
 
 def _compare(args: argparse.Namespace) -> int:
-    from ..compare import compare_fits
-    from ..outputs import atomic_write_text
+    from ..inference.comparison import compare_fits
+    from ..outputs.files import atomic_write_text
 
     out = Path(args.out) if args.out else Path(args.dirs[0]) / "compare.md"
     if out.is_dir():

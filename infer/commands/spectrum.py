@@ -11,7 +11,7 @@ import argparse
 from pathlib import Path
 
 from ..errors import InferError
-from ..spectrum import FORMATS, growth_spectrum, write_spectrum
+from ..physics.spectrum import FORMATS, growth_spectrum, write_spectrum
 from .conditions import add_condition_arguments, conditions_from_args, option_message
 
 __all__ = ["add_arguments", "run"]

@@ -32,9 +32,9 @@ def add_arguments(parser: argparse.ArgumentParser) -> None:
 
 
 def run(args: argparse.Namespace) -> int:
-    from ..config import load_config
     from ..errors import InferError
-    from ..survey import run_survey
+    from ..inference.config import load_config
+    from ..pipeline.survey import run_survey
 
     config = load_config(args.config).with_sampler(seed=args.seed, walkers=args.walkers,
                                                    max_steps=args.max_steps)

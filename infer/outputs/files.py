@@ -10,7 +10,7 @@ from collections.abc import Mapping
 from pathlib import Path
 from typing import Any
 
-from .errors import ChainError, InferError
+from ..errors import ChainError, InferError
 
 __all__ = ["atomic_write_text", "atomic_write_bytes", "jsonable", "write_json", "prepare_out_dir",
            "RUN_FILE"]

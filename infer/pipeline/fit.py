@@ -12,11 +12,10 @@ from pathlib import Path
 
 import numpy as np
 
-from .config import RunConfig
-from .errors import InferError
-from .model import Model, Observations, build_model
-from .outputs import RUN_FILE, atomic_write_text, prepare_out_dir, write_json
-from .results import (
+from ..errors import InferError
+from ..inference.config import RunConfig
+from ..inference.model import Model, Observations, build_model
+from ..inference.posterior import (
     Posterior,
     diagnostics,
     identifiability_notes,
@@ -24,7 +23,8 @@ from .results import (
     summary_table,
     write_summary,
 )
-from .sampling import SampleResult, run_sampler
+from ..inference.sampler import SampleResult, run_sampler
+from ..outputs.files import RUN_FILE, atomic_write_text, prepare_out_dir, write_json
 
 __all__ = ["FitOutcome", "fit_region", "fit_catalog", "run_hash", "load_fit", "select_region",
            "finish_outputs"]
@@ -70,7 +70,7 @@ def select_region(regions, name: str | None):
 def fit_catalog(catalog: str | Path, config: RunConfig, out_dir: str | Path, *, resume: bool = False,
                 region: str | None = None, progress: bool = True, plots: bool = True) -> FitOutcome:
     """Read a catalog, then :func:`fit_region` its (selected) region."""
-    from .catalog import read_catalog
+    from ..catalog.regions import read_catalog
 
     catalog = Path(catalog)
     regions = read_catalog(catalog, overrides=dict(config.catalog), spacing=config.model.spacing)
@@ -141,7 +141,7 @@ def finish_outputs(out: Path, model: Model, sample: SampleResult, *, region, con
     write_json(out / "diagnostics.json", diag)
     _write_pointwise(out, model, post)
     if plots:
-        from .plots import write_figures
+        from ..outputs.figures import write_figures
 
         write_figures(out, post=post, model=model, region=region)
     return FitOutcome(out, model, post, sample, table, notes, diag)
@@ -151,7 +151,7 @@ def _write_pointwise(out: Path, model: Model, post: Posterior, n_max: int = 2000
     """pointwise.npz: per-observation log-likelihood of (up to n_max) posterior samples."""
     import io
 
-    from .outputs import atomic_write_bytes
+    from ..outputs.files import atomic_write_bytes
 
     th = post.theta[:: max(1, post.n // n_max)][:n_max]
     ll = model.pointwise_loglike(th)
@@ -169,11 +169,11 @@ def load_fit(out_dir: str | Path):
     ChainError
         If the folder, its config or its chain is missing or corrupted.
     """
-    from .catalog import read_catalog
-    from .chainfile import read_chain
-    from .config import load_config
-    from .errors import ChainError
-    from .sampling import autocorr_times
+    from ..catalog.regions import read_catalog
+    from ..errors import ChainError
+    from ..inference.chainfile import read_chain
+    from ..inference.config import load_config
+    from ..inference.sampler import autocorr_times
 
     out = Path(out_dir)
     if not out.is_dir():

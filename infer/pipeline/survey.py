@@ -1,7 +1,7 @@
 """Many regions at once: one fit per catalog or per group, in parallel on a Dask cluster.
 
 :func:`run_survey` reads every catalog, fits each region with
-:func:`infer.fitting.fit_region` as one Dask task, and writes, in the output
+:func:`infer.pipeline.fit.fit_region` as one Dask task, and writes, in the output
 folder ``DIR``:
 
 * ``DIR/<folder>/`` -- the complete output of ``infer fit`` for each region;
@@ -56,11 +56,11 @@ from typing import Any
 import numpy as np
 from astropy.table import Table
 
-from .config import RunConfig, load_config
-from .errors import ChainError, InferError
-from .fitting import fit_region, run_hash
-from .outputs import RUN_FILE, atomic_write_bytes, atomic_write_text
-from .priors import PARAMETERS, Prior, parse_prior
+from ..errors import ChainError, InferError
+from ..inference.config import RunConfig, load_config
+from ..inference.priors import PARAMETERS, Prior, parse_prior
+from ..outputs.files import RUN_FILE, atomic_write_bytes, atomic_write_text
+from .fit import fit_region, run_hash
 
 __all__ = ["SurveyResult", "RegionEntry", "run_survey", "region_seed", "region_config", "folder_names",
            "read_regions", "survey_table", "survey_figure", "TABLE_NAMES", "SUMMARY_ORDER"]
@@ -240,7 +240,7 @@ class RegionEntry:
     region : Region or None
         None when reading failed.
     catalog_bytes : bytes
-        The catalog file's content (for :func:`infer.fitting.run_hash`).
+        The catalog file's content (for :func:`infer.pipeline.fit.run_hash`).
     error : str
         Empty when the region was read.
     """
@@ -260,7 +260,7 @@ def read_regions(catalogs: Sequence[str | Path], config: RunConfig) -> list[Regi
     the other groups down with it; the bad group's message then counts rows
     within the group.
     """
-    from .catalog import read_catalog
+    from ..catalog.regions import read_catalog
 
     entries: list[RegionEntry] = []
     for cat in catalogs:
@@ -284,8 +284,8 @@ def _read_by_group(path: Path, config: RunConfig, first: InferError) -> list[Reg
     """Each group of a catalog read on its own (after the whole file failed)."""
     from astropy.table import Column, MaskedColumn
 
-    from .catalog import read_catalog
-    from .catalog_read import read_table
+    from ..catalog.read import read_table
+    from ..catalog.regions import read_catalog
 
     src = str(path)
     whole = [RegionEntry(path.stem, src, error=_one_line(first))]
@@ -694,14 +694,14 @@ def _core_count() -> int:
 
 
 def _infer_version() -> str:
-    from . import __version__
+    from .. import __version__
 
     return __version__
 
 
 def _check_workers(client, say: Callable[[str], None]) -> None:
     """Refuse workers that cannot import this package; say so when their version differs."""
-    from . import __version__
+    from .. import __version__
 
     try:
         versions = client.run(_infer_version)
@@ -763,7 +763,7 @@ def run_survey(catalogs: Sequence[str | Path], config: RunConfig | str | Path,
     catalogs : sequence of path
         Catalog files; each gives one region, or one per value of its ``group`` column.
     config : RunConfig or path
-        The run config (a TOML file is read with :func:`infer.config.load_config`).
+        The run config (a TOML file is read with :func:`infer.inference.config.load_config`).
     out_dir : path
         Output folder (created if needed); see the module docstring for its content.
     scheduler : str, optional

@@ -19,9 +19,9 @@ import astropy.units as u
 import numpy as np
 from astropy.coordinates import Angle
 
+from ..errors import CatalogError, InferError
+from ..units import parse_quantity
 from . import dustmass
-from .errors import CatalogError, InferError
-from .units import parse_quantity
 
 __all__ = ["META_UNITS", "OVERRIDE_KEYS", "resolve_metadata", "dust_settings"]
 

@@ -1,6 +1,6 @@
 """The ``infer check --json`` summary of a catalog's regions.
 
-Part of :mod:`infer.catalog`: statistics of spacings (au) and masses (Jupiter
+Part of :mod:`infer.catalog.regions`: statistics of spacings (au) and masses (Jupiter
 masses), warnings and exclusions, as plain JSON-ready values.
 """
 
@@ -13,7 +13,7 @@ import astropy.units as u
 import numpy as np
 
 if TYPE_CHECKING:
-    from .catalog import Region
+    from .regions import Region
 
 __all__ = ["summarize"]
 

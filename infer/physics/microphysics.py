@@ -13,7 +13,7 @@ from __future__ import annotations
 
 import numpy as np
 
-from .constants import CR_ION_COEFF, HELIUM_FACTOR, M_H, M_ION_AMU, MU_GAS, OHM_COEFF, SIGMA_W_IN
+from ..constants import CR_ION_COEFF, HELIUM_FACTOR, M_H, M_ION_AMU, MU_GAS, OHM_COEFF, SIGMA_W_IN
 
 __all__ = [
     "neutral_density",

@@ -19,10 +19,10 @@ from typing import IO, Any
 import astropy.units as u
 import numpy as np
 
+from ..constants import AU, YR
+from ..errors import InferError
 from . import dispersion
 from .conditions import Conditions, resolve_conditions
-from .constants import AU, YR
-from .errors import InferError
 from .predict import Prediction, prediction_from_conditions
 from .sheet import equilibrium
 
@@ -79,7 +79,7 @@ def growth_spectrum(*, n_points: int = 400, **conditions: Any) -> Spectrum:
         times the fastest, whichever is longer). The thermal fastest wavelength
         is always inside the range.
     **conditions
-        The keyword arguments of :func:`infer.predict` (scalars only), e.g.
+        The keyword arguments of :func:`infer.physics.predict` (scalars only), e.g.
         ``surface_density="60 g/cm2", temperature="35 K", mass_to_flux=1.6``.
 
     Returns

@@ -1,6 +1,6 @@
 """Catalog columns: which columns a file uses, and their cells checked one by one.
 
-Part of :mod:`infer.catalog`. Every problem is a :class:`~infer.errors.CatalogError`
+Part of :mod:`infer.catalog.regions`. Every problem is a :class:`~infer.errors.CatalogError`
 naming the file, the row (counting data rows from 1) with its id, and the
 column, and saying what to fix.
 """
@@ -12,8 +12,8 @@ from dataclasses import dataclass
 import astropy.units as u
 import numpy as np
 
-from .catalog_read import RawCatalog
-from .errors import CatalogError
+from ..errors import CatalogError
+from .read import RawCatalog
 
 __all__ = ["Cells", "Layout", "Values", "column_layout", "column_values", "is_kind"]
 

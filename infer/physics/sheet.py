@@ -1,7 +1,7 @@
 """Vertical equilibrium of the isothermal, self-gravitating, pressure-confined sheet.
 
 All functions take and return plain cgs float arrays (broadcasting like numpy);
-see :mod:`infer.predict` for the Quantity interface.
+see :mod:`infer.physics.predict` for the Quantity interface.
 """
 
 from __future__ import annotations
@@ -10,7 +10,7 @@ from dataclasses import dataclass
 
 import numpy as np
 
-from .constants import K_B, M_H, MU_GAS, G
+from ..constants import K_B, M_H, MU_GAS, G
 
 __all__ = [
     "Equilibrium",

@@ -4,7 +4,7 @@
   emcee's random state; the random state is saved with every chunk, so a
   resumed run continues exactly as an uninterrupted one would.
 * Crash-safe: chunks are appended to ``chain.h5`` atomically
-  (:mod:`infer.chainfile`); a killed run loses at most one chunk.
+  (:mod:`infer.inference.chainfile`); a killed run loses at most one chunk.
 * Stops once the chain is longer than ``tau_factor`` integrated
   autocorrelation times and the estimate changed by less than ``tau_rtol``
   since the previous check (emcee's documented recipe), or at ``max_steps``
@@ -21,9 +21,9 @@ from pathlib import Path
 import numpy as np
 from scipy import optimize
 
+from ..errors import ChainError, InferError
 from .chainfile import ChainData, append_chunk, create_chain, read_chain
 from .config import SamplerOptions
-from .errors import ChainError, InferError
 
 __all__ = ["SampleResult", "autocorr_times", "find_map", "find_modes", "initial_ball", "make_moves",
            "run_sampler"]

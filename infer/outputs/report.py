@@ -24,11 +24,11 @@ from pathlib import Path
 
 import numpy as np
 
-from .errors import ChainError
-from .forecast import ForecastResult, forecast
-from .model import Model
-from .results import Posterior, ln_width
-from .spectrum_band import SpectrumBand, band_figure, spectrum_band
+from ..errors import ChainError
+from ..inference.forecast import ForecastResult, forecast
+from ..inference.model import Model
+from ..inference.posterior import Posterior, ln_width
+from .band import SpectrumBand, band_figure, spectrum_band
 
 __all__ = ["Block", "Report", "build_report", "write_report", "render_markdown", "render_pages",
            "width_ratios", "REPORT_FILES", "BAND_FILE"]
@@ -80,7 +80,7 @@ class Report:
     forecasts : list of ForecastResult
     band : SpectrumBand
     table : astropy.table.Table
-        The summary table (:func:`infer.results.summary_table`).
+        The summary table (:func:`infer.inference.posterior.summary_table`).
     notes : list of str
         Identifiability notes.
     ratios : dict name -> float
@@ -282,7 +282,7 @@ def _input_blocks(config, model, region, diag, post) -> list[Block]:
                      + (f"; growth time below {o.growth_time_max:.3g} yr ({o.growth_constraint})"
                         if o.growth_time_max is not None else "") + ".")]
     blocks.append(Block("h2", "Priors"))
-    from .priors import PARAMETERS
+    from ..inference.priors import PARAMETERS
 
     order = [n for n in PARAMETERS if n in model.priors] + \
         [n for n in model.priors if n not in PARAMETERS]
@@ -376,8 +376,8 @@ def build_report(fit_dir: str | Path, *, forecasts: Sequence[tuple[str, float]] 
         If the folder, its config or its chain is missing or corrupted, or
         holds too few samples.
     """
-    from .fitting import load_fit
-    from .results import identifiability_notes, posterior_from_chain, summary_table
+    from ..inference.posterior import identifiability_notes, posterior_from_chain, summary_table
+    from ..pipeline.fit import load_fit
 
     out = Path(fit_dir)
     config, model, region, chain, tau = load_fit(out)
@@ -585,7 +585,7 @@ def write_report(report: Report) -> list[Path]:
     list of Path
         The files written.
     """
-    from .outputs import atomic_write_bytes, atomic_write_text
+    from .files import atomic_write_bytes, atomic_write_text
 
     out = report.fit_dir
     written: list[Path] = []
@@ -595,7 +595,7 @@ def write_report(report: Report) -> list[Path]:
     fig.savefig(png, format="png", dpi=110)
     md = render_markdown(report)
     if report.missing_figures:
-        from .plots import write_figures
+        from .figures import write_figures
 
         written += write_figures(out, post=report.post, model=report.model, region=report.region)
     pdf = _render_pdf(report)

@@ -16,10 +16,10 @@ from typing import Any
 import astropy.units as u
 import numpy as np
 
+from ..constants import AU, M_JUP, MU_GAS, YR, G
+from ..errors import InferError
 from . import dispersion
 from .conditions import FRAGMENT_SHAPES, Conditions, resolve_conditions
-from .constants import AU, M_JUP, MU_GAS, YR, G
-from .errors import InferError
 from .sheet import Equilibrium, equilibrium
 
 __all__ = ["Forward", "forward", "forward_conditions", "Prediction", "predict"]
@@ -290,7 +290,7 @@ def predict(
 
 
 def forward_conditions(c: Conditions) -> Forward:
-    """:func:`forward` on resolved :class:`~infer.conditions.Conditions`."""
+    """:func:`forward` on resolved :class:`~infer.physics.conditions.Conditions`."""
     return forward(c.sigma, c.temperature, inv_mu2=c.inv_mu2, eta_total=c.eta_ad + c.eta_ohm,
                    kappa=c.kappa, p_ext=c.p_ext, mu_gas=c.mu_gas,
                    fragment_shape=c.fragment_shape)

@@ -45,7 +45,7 @@ class Posterior:
     values : dict name -> ndarray (n,)
         Every parameter (fixed included) in its canonical unit.
     derived : dict name -> ndarray (n,)
-        In the units of :data:`infer.model.DERIVED_UNITS`.
+        In the units of :data:`infer.inference.model.DERIVED_UNITS`.
     log_prob : ndarray (n,)
     burn, thin : int
         Steps discarded at the start, and thinning, of the chain.
@@ -205,7 +205,7 @@ def diagnostics(*, chain: ChainData, tau, converged: bool, post: Posterior, opti
     import emcee
     import scipy
 
-    from . import __version__
+    from .. import __version__
 
     tau = np.asarray(tau, dtype=float)
     n_steps = chain.iteration
@@ -265,7 +265,7 @@ _TEX_UNITS = {"": "", "dex": "dex", "g / cm2": r"g\,cm$^{-2}$", "K": "K", "solMa
 
 def write_summary(table: Table, notes: list[str], out_dir: str | Path, *, header: Mapping) -> None:
     """Write summary.ecsv, summary.md and summary.tex (each atomically)."""
-    from .outputs import atomic_write_text
+    from ..outputs.files import atomic_write_text
 
     out_dir = Path(out_dir)
     t = table.copy()

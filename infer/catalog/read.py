@@ -1,6 +1,6 @@
 """Reading a clump catalog file: any file -> columns, units and header metadata.
 
-This module only reads; :mod:`infer.catalog` validates. Every failure of the
+This module only reads; :mod:`infer.catalog.regions` validates. Every failure of the
 file system or of an astropy reader becomes a :class:`~infer.errors.CatalogError`
 whose message names the file and says what to do.
 
@@ -26,7 +26,7 @@ import numpy as np
 from astropy.io.ascii import convert_numpy
 from astropy.table import Column, Table
 
-from .errors import CatalogError
+from ..errors import CatalogError
 
 __all__ = ["RawCatalog", "read_table", "FORMATS"]
 

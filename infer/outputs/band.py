@@ -6,8 +6,8 @@ of the dimensionless kernel (an array of shape (n_samples, n_wavelengths)).
 Its pointwise median and 68% / 95% central intervals over the samples form
 the band; the observed clump spacings are drawn beside it as a rug.
 
-The dimensionless parameters are formed exactly as :func:`infer.predict.forward`
-forms them from the physical conditions of :meth:`infer.model.Model.evaluate`:
+The dimensionless parameters are formed exactly as :func:`infer.physics.predict.forward`
+forms them from the physical conditions of :meth:`infer.inference.model.Model.evaluate`:
 L0 = c_s^2 / (2 pi G Sigma), t0 = c_s / (2 pi G Sigma), k~ = 2 pi L0 / lambda,
 kappa~ = kappa t0, eta~ = (eta_AD + eta_OD) t0 / L0^2, P~ = 2 P_ext / (pi G Sigma^2).
 """
@@ -19,11 +19,11 @@ from typing import TYPE_CHECKING
 
 import numpy as np
 
-from . import dispersion
-from .constants import AU, YR
-from .model import Model
-from .results import Posterior
-from .sheet import equilibrium
+from ..constants import AU, YR
+from ..inference.model import Model
+from ..inference.posterior import Posterior
+from ..physics import dispersion
+from ..physics.sheet import equilibrium
 
 if TYPE_CHECKING:  # pragma: no cover - typing only
     from matplotlib.figure import Figure
@@ -82,7 +82,7 @@ def growth_rate_grid(model: Model, theta: np.ndarray, wavelength_au: np.ndarray)
     -------
     rate : ndarray (n, n_k)
         Growth rate, 1/yr (0 where the mode does not grow).
-    fw : infer.predict.Forward
+    fw : infer.physics.predict.Forward
         The forward model of the same rows (fastest mode, band edges; cgs).
     """
     _, phys, fw = model.evaluate(theta)

@@ -24,13 +24,13 @@ import astropy.units as u
 import numpy as np
 from scipy import special
 
+from ..constants import AU, M_JUP, M_SUN, YR, G
+from ..errors import InferError
+from ..physics.microphysics import diffusivities
+from ..physics.predict import Forward, forward
+from ..physics.sheet import field_from_mass_to_flux
 from .config import ModelOptions, RunConfig
-from .constants import AU, M_JUP, M_SUN, YR, G
-from .errors import InferError
-from .microphysics import diffusivities
-from .predict import Forward, forward
 from .priors import PARAMETERS, Prior
-from .sheet import field_from_mass_to_flux
 
 __all__ = ["Observations", "Model", "build_model", "DERIVED_UNITS"]
 
@@ -78,7 +78,7 @@ class Observations:
 
     @classmethod
     def from_region(cls, region) -> Observations:
-        """From a :class:`infer.catalog.Region`."""
+        """From a :class:`infer.catalog.regions.Region`."""
         s = np.asarray(region.spacings.to_value(u.cm), dtype=float)
         ds = np.asarray(region.spacing_errors.to_value(u.cm), dtype=float)
         m = np.asarray(region.masses.to_value(u.g), dtype=float)
@@ -195,7 +195,7 @@ class Model:
         """Values, physical conditions (with diffusivities) and the forward model for ``theta``."""
         v = self.values(theta)
         phys = self.physical(v)
-        from .sheet import equilibrium
+        from ..physics.sheet import equilibrium
 
         eq = equilibrium(phys["sigma"], phys["temperature"], phys["p_ext"], mu_gas=self.options.mu_gas)
         e_ad, e_ohm, x_e, tau = self.diffusion(phys, v, eq.rho_c)

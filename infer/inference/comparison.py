@@ -25,7 +25,7 @@ from pathlib import Path
 
 import numpy as np
 
-from .errors import ChainError, InferError
+from ..errors import ChainError, InferError
 
 __all__ = ["LooResult", "Comparison", "psis_loo", "compare_loo", "compare_fits",
            "load_pointwise", "K_WARN", "MIN_DELTA", "N_SE"]
@@ -268,7 +268,7 @@ def load_pointwise(fit_dir: str | Path) -> tuple[np.ndarray, tuple[str, ...]]:
 
 
 def _run_info(fit_dir: Path) -> dict:
-    from .outputs import RUN_FILE
+    from ..outputs.files import RUN_FILE
 
     p = fit_dir / RUN_FILE
     try:

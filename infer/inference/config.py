@@ -18,9 +18,9 @@ from typing import Any
 import astropy.units as u
 import numpy as np
 
-from .errors import ConfigError
+from ..errors import ConfigError
+from ..units import parse_quantity
 from .priors import PARAMETERS, Prior, parse_prior
-from .units import parse_quantity
 
 __all__ = [
     "ModelOptions",
@@ -39,7 +39,7 @@ MAX_WALKERS = 100_000
 MAX_CHECK_EVERY = 100_000
 
 def _catalog_keys() -> tuple[str, ...]:
-    from .catalog_meta import OVERRIDE_KEYS
+    from ..catalog.metadata import OVERRIDE_KEYS
 
     return tuple(OVERRIDE_KEYS)
 

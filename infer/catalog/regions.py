@@ -1,8 +1,8 @@
 """Clump catalogs -> validated regions: deprojected positions, spacings, masses.
 
-:func:`read_catalog` reads a catalog file (see :mod:`infer.catalog_read` for
+:func:`read_catalog` reads a catalog file (see :mod:`infer.catalog.read` for
 the formats), checks every cell, resolves the metadata (file header and the
-run config's ``[catalog]`` table, see :mod:`infer.catalog_meta`), and returns
+run config's ``[catalog]`` table, see :mod:`infer.catalog.metadata`), and returns
 one :class:`Region` per value of the optional ``group`` column.
 
 Columns (names are case-insensitive):
@@ -16,7 +16,7 @@ Columns (names are case-insensitive):
   directions), with a length or angle unit;
 * masses: ``mass`` (+ ``mass_err``) with a mass unit, or continuum ``flux``
   (+ ``flux_err``) with a flux-density unit (converted with
-  :mod:`infer.dustmass`);
+  :mod:`infer.catalog.dustmass`);
 * optional ``group``: several regions in one file.
 
 Problems are :class:`~infer.errors.CatalogError` naming the file, the row (and
@@ -37,14 +37,14 @@ import numpy as np
 from astropy.coordinates import SkyCoord
 from scipy.spatial import cKDTree
 
+from ..errors import CatalogError
 from . import geometry
-from .catalog_columns import Cells, column_layout, column_values, is_kind
-from .catalog_meta import OVERRIDE_KEYS, dust_settings, resolve_metadata
-from .catalog_read import read_table
-from .catalog_summary import summarize
+from .columns import Cells, column_layout, column_values, is_kind
 from .dustmass import dust_mass
-from .errors import CatalogError
 from .geometry import SPACING_METHODS
+from .metadata import OVERRIDE_KEYS, dust_settings, resolve_metadata
+from .read import read_table
+from .summary import summarize
 
 __all__ = ["Region", "read_catalog", "check_catalog", "summarize", "OVERRIDE_KEYS",
            "SPACING_METHODS", "COLUMNS"]
@@ -69,7 +69,7 @@ class Region:
     ids : tuple of str, length N
     x, y : Quantity [au], shape (N,)
         Deprojected disk-plane positions, in the sky orientation (x east-like,
-        y north-like; see :mod:`infer.geometry`).
+        y north-like; see :mod:`infer.catalog.geometry`).
     spacings : Quantity [au], shape (E,)
         Minimum-spanning-tree edges (E = N - 1) or nearest-neighbour distances (E = N).
     spacing_errors : Quantity [au], shape (E,)

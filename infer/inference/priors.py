@@ -16,8 +16,8 @@ import astropy.units as u
 import numpy as np
 from scipy import special, stats
 
-from .errors import ConfigError
-from .units import parse_quantity
+from ..errors import ConfigError
+from ..units import parse_quantity
 
 __all__ = ["ParamInfo", "PARAMETERS", "Prior", "parse_prior", "DISTRIBUTIONS"]
 

@@ -23,7 +23,7 @@ from pathlib import Path
 
 import numpy as np
 
-from .errors import ChainError
+from ..errors import ChainError
 
 __all__ = ["ChainData", "create_chain", "append_chunk", "read_chain", "GROUP"]
 

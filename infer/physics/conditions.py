@@ -16,11 +16,11 @@ from typing import Any
 import astropy.units as u
 import numpy as np
 
-from .constants import M_H, MU_GAS, MU_H2, G
-from .errors import InferError
+from ..constants import M_H, MU_GAS, MU_H2, G
+from ..errors import InferError
+from ..units import dimensionless, to_cgs
 from .microphysics import cosmic_ray_ionization, diffusivities
 from .sheet import equilibrium, field_from_mass_to_flux, mass_to_flux_ratio
-from .units import dimensionless, to_cgs
 
 __all__ = ["Conditions", "resolve_conditions", "FRAGMENT_SHAPES"]
 
@@ -115,7 +115,7 @@ def resolve_conditions(
 ) -> Conditions:
     """Validate the conditions and resolve them to cgs arrays.
 
-    Takes the same arguments as :func:`infer.predict`; see there.
+    Takes the same arguments as :func:`infer.physics.predict`; see there.
 
     Raises
     ------

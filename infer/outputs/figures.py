@@ -25,10 +25,10 @@ from typing import TYPE_CHECKING
 
 import numpy as np
 
-from .model import Model
-from .outputs import atomic_write_bytes
-from .priors import PARAMETERS
-from .results import Posterior
+from ..inference.model import Model
+from ..inference.posterior import Posterior
+from ..inference.priors import PARAMETERS
+from .files import atomic_write_bytes
 
 if TYPE_CHECKING:  # pragma: no cover - typing only
     from matplotlib.figure import Figure
@@ -51,7 +51,7 @@ FIGURE_NAMES = ("corner", "predictive")
 #: 2-D contour levels: fraction of the samples inside (1 and 2 sigma of a 2-D Gaussian)
 CONTOUR_LEVELS = (1.0 - np.exp(-0.5), 1.0 - np.exp(-2.0))
 
-#: derived quantity -> plot label with its unit (units of infer.model.DERIVED_UNITS)
+#: derived quantity -> plot label with its unit (units of infer.inference.model.DERIVED_UNITS)
 DERIVED_LABELS: dict[str, str] = {
     "field": r"$B$ [mG]",
     "eta_ad": r"$\eta_\mathrm{AD}$ [cm$^2$ s$^{-1}$]",
@@ -243,7 +243,7 @@ def corner_figure(post: Posterior, model: Model, *,
     truths : mapping name -> value, optional
         Reference values (e.g. the MAP, or the truth of a simulated catalog)
         in the quantity's own unit (canonical parameter unit, or
-        :data:`infer.model.DERIVED_UNITS`); drawn as lines.
+        :data:`infer.inference.model.DERIVED_UNITS`); drawn as lines.
     truths_label : str
         What the reference lines are, for the figure note.
     title : str, optional
@@ -349,7 +349,7 @@ class _Observable:
 
 
 def _observables():
-    from .constants import AU, M_JUP
+    from ..constants import AU, M_JUP
 
     return {
         "spacing": _Observable("spacing", "wavelength", "spacing_scatter", "spacing_calibration",

@@ -30,7 +30,7 @@ from dataclasses import dataclass, field
 
 import numpy as np
 
-from .errors import InferError
+from ..errors import InferError
 
 __all__ = ["TargetForecast", "ForecastResult", "forecast", "parse_precision", "default_targets",
            "MEASURABLE", "kish_ess", "weighted_quantiles"]
