@@ -24,8 +24,7 @@ import astropy.units as u
 import numpy as np
 import pytest
 from astropy.table import Table
-from hypothesis import HealthCheck, given, settings
-from hypothesis import strategies as st
+from hypothesis_compat import HealthCheck, given, settings, st
 
 from infer.commands.conditions import OPTIONS
 

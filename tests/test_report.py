@@ -171,6 +171,7 @@ def test_bad_options_exit_2_and_unchanged(fits, tmp_path, capsys, argv, msg):
 
 @pytest.mark.slow
 def test_compare_real_fits_of_two_diffusion_modes(fits, tmp_path, capsys):
+    pytest.importorskip("arviz_stats")    # the comparison's PSIS-LOO (the report extra)
     out = tmp_path / "compare.md"
     rc = main(["report", str(fits["ionization"]), str(fits["ideal"]), "--compare", "--out", str(out)])
     text, err = capsys.readouterr()
