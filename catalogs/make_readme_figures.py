@@ -45,8 +45,7 @@ def _png(fig, dpi: int) -> bytes:
 def _fit(fit_dir: Path | None, max_steps: int, work: Path) -> Path:
     if fit_dir is not None:
         return fit_dir
-    from infer.inference.config import load_config
-    from infer.pipeline.fit import fit_catalog
+    from infer import fit_catalog, load_config
 
     config = load_config(CONFIG).with_sampler(max_steps=max_steps)
     out = work / "demo_disk"
@@ -65,12 +64,9 @@ def main(argv: list[str] | None = None) -> int:
 
     import numpy as np
 
-    from infer.inference.posterior import posterior_from_chain
-    from infer.outputs.band import band_figure, spectrum_band
-    from infer.outputs.figures import corner_figure, predictive_figure
-    from infer.outputs.files import atomic_write_bytes
-    from infer.physics.spectrum import growth_spectrum, spectrum_figure
-    from infer.pipeline.fit import load_fit
+    from infer import (band_figure, corner_figure, growth_spectrum, load_fit, posterior_from_chain,
+                       predictive_figure, spectrum_band, spectrum_figure)
+    from infer.outputs.files import atomic_write_bytes  # internal: the package's atomic file writer
 
     args.out.mkdir(parents=True, exist_ok=True)
     work = Path(tempfile.mkdtemp(prefix="readme_figures_"))
