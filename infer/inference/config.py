@@ -33,6 +33,8 @@ __all__ = [
 ]
 
 DIFFUSION_MODES = ("ionization", "free", "ideal")
+#: values of [model] selection
+SELECTION_MODES = ("auto", "off")
 #: more walkers than this is a typo, not a run (the sampler's arrays would not fit in memory)
 MAX_WALKERS = 100_000
 #: the sampler allocates check_every steps of the chain at once
@@ -71,6 +73,9 @@ class ModelOptions:
     growth_constraint : {"soft", "hard"}
     growth_width_dex : float
         Width of the soft (log-normal CDF) constraint, dex.
+    selection : {"auto", "off"}
+        "auto": model the catalog's beam, detection limit and searched area when it states
+        them (truncated likelihood terms, expected number of clumps); "off": ignore them.
     """
 
     diffusion: str = "ionization"
@@ -82,6 +87,7 @@ class ModelOptions:
     growth_time_max: float | None = None
     growth_constraint: str = "soft"
     growth_width_dex: float = 0.2
+    selection: str = "auto"
 
 
 @dataclass(frozen=True)
@@ -299,6 +305,8 @@ def _parse_model(tab: dict[str, Any]) -> ModelOptions:
             kw[k] = _choice(where, v, ("square", "disk"))
         elif k == "growth_constraint":
             kw[k] = _choice(where, v, ("soft", "hard"))
+        elif k == "selection":
+            kw[k] = _choice(where, v, SELECTION_MODES)
         elif k in ("use_spacings", "use_masses"):
             kw[k] = _bool(where, v)
         elif k in ("mu_gas", "growth_width_dex"):
