@@ -38,6 +38,7 @@ from ..physics.predict import Forward, forward
 from ..physics.sheet import field_from_mass_to_flux
 from .config import ModelOptions, RunConfig
 from .likelihood import count_term, growth_term, observation_terms
+from .measurements import Measurement
 from .priors import PARAMETERS, Prior
 
 __all__ = ["Observations", "Model", "build_model", "DERIVED_UNITS"]
@@ -205,12 +206,15 @@ class Model:
         Every parameter's prior (fixed ones included).
     options : ModelOptions
     obs : Observations
+    measurements : tuple of Measurement
+        Measured quantities that add a term each to the likelihood.
     """
 
     names: tuple[str, ...]
     priors: Mapping[str, Prior]
     options: ModelOptions
     obs: Observations
+    measurements: tuple[Measurement, ...] = ()
 
     @property
     def ndim(self) -> int:
@@ -381,7 +385,23 @@ class Model:
         ll = self._pointwise(v, c).sum(axis=1) + self._growth_term(c["growth_time"])
         if self.selection_active:
             ll = ll + self._count(v, c)
+        if self.measurements:
+            ll = ll + self.measurement_loglike(self.values(theta))
         return np.where(np.isnan(ll), -np.inf, ll)
+
+    def measured_value(self, name: str, v: Mapping[str, np.ndarray]) -> np.ndarray:
+        """The model's value of a measurable quantity (its summary unit) from parameter values."""
+        if name == "field":
+            return field_from_mass_to_flux(v["surface_density"], v["mass_to_flux"]) * 1e3
+        return np.asarray(v[name], dtype=float)
+
+    def measurement_loglike(self, v: Mapping[str, np.ndarray]) -> np.ndarray:
+        """Sum of the measurement terms for parameter values ``v`` (n,)."""
+        n = np.asarray(next(iter(v.values()))).shape[0]
+        out = np.zeros(n)
+        for m in self.measurements:
+            out = out + m.loglike(self.measured_value(m.name, v))
+        return out
 
     def __call__(self, theta) -> np.ndarray:
         """Log-posterior of each row of ``theta`` (n, ndim) -> (n,); finite or -inf."""
@@ -427,7 +447,8 @@ def build_model(config: RunConfig, obs: Observations) -> Model:
         raise InferError("nothing to fit: every parameter in [priors] is fixed")
     if config.model.use_spacings and obs.n_spacings == 0 and not config.model.use_masses:
         raise InferError("the catalog has no spacings to fit")
-    return Model(names=names, priors=dict(config.priors), options=config.model, obs=obs)
+    return Model(names=names, priors=dict(config.priors), options=config.model, obs=obs,
+                 measurements=tuple(config.measurements.values()))
 
 
 # labels for plots, exported for the plotting and results modules
