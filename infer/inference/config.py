@@ -21,6 +21,7 @@ import numpy as np
 from ..errors import ConfigError
 from ..units import parse_quantity
 from .measurements import Measurement, parse_measurements
+from .parameters import LINEAR, parse_signed_prior
 from .priors import PARAMETERS, Prior, parse_prior
 
 __all__ = [
@@ -36,6 +37,11 @@ __all__ = [
 DIFFUSION_MODES = ("ionization", "free", "ideal")
 #: values of [model] selection
 SELECTION_MODES = ("auto", "off")
+#: values of [model] profile
+PROFILES = ("local", "power-law")
+#: priors of the radial profile (profile = "power-law" only)
+PROFILE_PRIORS = ("reference_radius", "surface_density_index", "temperature_index",
+                  "mass_to_flux_index", "ionization_index")
 #: more walkers than this is a typo, not a run (the sampler's arrays would not fit in memory)
 MAX_WALKERS = 100_000
 #: the sampler allocates check_every steps of the chain at once
@@ -77,6 +83,10 @@ class ModelOptions:
     selection : {"auto", "off"}
         "auto": model the catalog's beam, detection limit and searched area when it states
         them (truncated likelihood terms, expected number of clumps); "off": ignore them.
+    profile : {"local", "power-law"}
+        "local": one set of conditions for the whole region (at ``radius``); "power-law":
+        surface density, temperature (and optionally mass-to-flux ratio and ionization) are
+        power laws of radius about ``reference_radius``, rotation Keplerian at each clump.
     """
 
     diffusion: str = "ionization"
@@ -89,6 +99,7 @@ class ModelOptions:
     growth_constraint: str = "soft"
     growth_width_dex: float = 0.2
     selection: str = "auto"
+    profile: str = "local"
 
 
 @dataclass(frozen=True)
@@ -314,6 +325,8 @@ def _parse_model(tab: dict[str, Any]) -> ModelOptions:
             kw[k] = _choice(where, v, ("soft", "hard"))
         elif k == "selection":
             kw[k] = _choice(where, v, SELECTION_MODES)
+        elif k == "profile":
+            kw[k] = _choice(where, v, PROFILES)
         elif k in ("use_spacings", "use_masses"):
             kw[k] = _bool(where, v)
         elif k in ("mu_gas", "growth_width_dex"):
@@ -374,6 +387,12 @@ def _parse_priors(tab: dict[str, Any], model: ModelOptions) -> dict[str, Prior]:
     if missing:
         raise ConfigError(f"priors.{missing[0]}: required with model.diffusion = {mode!r}; give a value "
                           f"or a distribution")
+    if model.profile == "power-law":
+        return _profile_priors(tab, mode)
+    for k in PROFILE_PRIORS:
+        if k in tab:
+            raise ConfigError(f"priors.{k}: only used with model.profile = \"power-law\"; remove "
+                              f"it, or set profile = \"power-law\" in [model]")
     has_kep = {"stellar_mass", "radius"} & set(tab)
     if "kappa" in tab and has_kep:
         raise ConfigError("priors.kappa: give either kappa or stellar_mass with radius, not both")
@@ -383,6 +402,41 @@ def _parse_priors(tab: dict[str, Any], model: ModelOptions) -> dict[str, Prior]:
     if "kappa" not in tab and not has_kep:
         raise ConfigError('priors.kappa: rotation not given; set stellar_mass and radius (Keplerian '
                           'disk) or kappa (use kappa = { value = "0 1/s" } for a non-rotating sheet)')
+    return _build_priors(tab)
+
+
+def _build_priors(tab: dict[str, Any], extra_defaults: Mapping[str, Any] | None = None
+                  ) -> dict[str, Prior]:
     merged = dict(DEFAULT_PRIORS)
+    merged.update(extra_defaults or {})
     merged.update(tab)
-    return {k: parse_prior(k, v) for k, v in merged.items()}
+    return {k: (parse_signed_prior if k in LINEAR else parse_prior)(k, v) for k, v in merged.items()}
+
+
+def _profile_priors(tab: dict[str, Any], mode: str) -> dict[str, Prior]:
+    """The priors of ``profile = "power-law"`` (checked on top of the diffusion mode's)."""
+    where = 'with model.profile = "power-law"'
+    if "stellar_mass" not in tab:
+        raise ConfigError(f"priors.stellar_mass: required {where}: the rotation is Keplerian at "
+                          f"each clump's radius; give e.g. stellar_mass = {{ value = \"0.5 solMass\" }}")
+    for k, why in (("kappa", "the epicyclic frequency is Keplerian at each clump's radius"),
+                   ("radius", "each clump's radius comes from its position; the conditions are "
+                              "given at reference_radius")):
+        if k in tab:
+            raise ConfigError(f"priors.{k}: not used {where} ({why}); remove it")
+    for k in ("reference_radius", "surface_density_index", "temperature_index"):
+        if k not in tab:
+            example = {"reference_radius": '{ value = "100 au" }',
+                       "surface_density_index": '{ dist = "uniform", low = 0, high = 2 }',
+                       "temperature_index": "{ value = 0.5 }"}[k]
+            raise ConfigError(f"priors.{k}: required {where}, e.g. {k} = {example}")
+    if "ionization_index" in tab and mode != "ionization":
+        raise ConfigError(f"priors.ionization_index: only used with model.diffusion = "
+                          f"\"ionization\" (got {mode!r}); remove it")
+    defaults: dict[str, Any] = {"mass_to_flux_index": {"value": 0.0}}
+    if mode == "ionization":
+        defaults["ionization_index"] = {"value": 0.0}
+    priors = _build_priors(tab, defaults)
+    if not priors["reference_radius"].fixed:
+        raise ConfigError('priors.reference_radius: must be a fixed value, e.g. { value = "100 au" }')
+    return priors

@@ -39,6 +39,7 @@ from ..physics.sheet import field_from_mass_to_flux
 from .config import ModelOptions, RunConfig
 from .likelihood import count_term, growth_term, observation_terms
 from .measurements import Measurement
+from .parameters import RadialPlan, at_radii, log_prior_sampled, radial_plan, to_sampled, to_values
 from .priors import PARAMETERS, Prior
 
 __all__ = ["Observations", "Model", "build_model", "DERIVED_UNITS"]
@@ -81,6 +82,8 @@ class Observations:
         for a spacing that is not truncated (one observed below the beam). None: no beam.
     ln_mass_min : ndarray (n_clumps,) or None
         ln (g) of the detection limit for each mass (-inf for masses observed below it).
+    ln_resolvable : ndarray (n_edges,) or None
+        ln (cm) of the beam's resolvable length along every spacing (truncated or not).
     ln_beam_length : float
         ln (cm) of the beam's typical (median over the spacings) resolvable length, for the
         expected number of clumps; -inf without a beam.
@@ -99,6 +102,7 @@ class Observations:
     labels: tuple[str, ...] = ()
     ln_spacing_min: np.ndarray | None = None
     ln_mass_min: np.ndarray | None = None
+    ln_resolvable: np.ndarray | None = None
     ln_beam_length: float = _NONE
     ln_mass_limit: float = _NONE
     area: float | None = None
@@ -166,6 +170,7 @@ class Observations:
         if spacing_min is not None:
             ln_min = np.log(np.broadcast_to(np.asarray(spacing_min, dtype=float), s.shape))
             kw["ln_spacing_min"] = np.where(ln_s > ln_min, ln_min, _NONE)
+            kw["ln_resolvable"] = ln_min
             kw["ln_beam_length"] = float(np.median(ln_min)) if ln_min.size else _NONE
         if mass_limit is not None:
             lim = float(np.log(mass_limit))
@@ -208,6 +213,8 @@ class Model:
     obs : Observations
     measurements : tuple of Measurement
         Measured quantities that add a term each to the likelihood.
+    plan : RadialPlan or None
+        With ``profile = "power-law"``: the distinct radii of the observations.
     """
 
     names: tuple[str, ...]
@@ -215,6 +222,7 @@ class Model:
     options: ModelOptions
     obs: Observations
     measurements: tuple[Measurement, ...] = ()
+    plan: RadialPlan | None = None
 
     @property
     def ndim(self) -> int:
@@ -227,7 +235,8 @@ class Model:
         Parameters
         ----------
         theta : array_like (n, ndim)
-            ln of the sampled parameters.
+            The sampled coordinates: ln of each positive parameter, the power-law indices
+            themselves (:mod:`infer.inference.parameters`).
         """
         theta = np.atleast_2d(np.asarray(theta, dtype=float))
         n = theta.shape[0]
@@ -235,10 +244,14 @@ class Model:
         for name, prior in self.priors.items():
             if prior.fixed:
                 out[name] = np.full(n, prior.value)
-        with np.errstate(over="ignore"):
-            for i, name in enumerate(self.names):
-                out[name] = np.exp(theta[:, i])
+        for i, name in enumerate(self.names):
+            out[name] = to_values(name, theta[:, i])
         return out
+
+    def sampled(self, values: Mapping[str, np.ndarray]) -> np.ndarray:
+        """Inverse of :meth:`values` for the sampled parameters: (n, ndim)."""
+        return np.column_stack([to_sampled(k, np.asarray(values[k], dtype=float))
+                                for k in self.names])
 
     def physical(self, v: Mapping[str, np.ndarray]) -> dict[str, np.ndarray]:
         """cgs conditions from parameter values: sigma, T, mu0, field, kappa, p_ext, diffusivities."""
@@ -273,9 +286,17 @@ class Model:
         zero = np.zeros(n)
         return zero, zero, np.full(n, np.nan), np.full(n, np.nan)
 
-    def evaluate(self, theta) -> tuple[dict[str, np.ndarray], dict[str, np.ndarray], Forward]:
-        """Values, physical conditions (with diffusivities) and the forward model for ``theta``."""
+    def evaluate(self, theta, radii=None) -> tuple[dict[str, np.ndarray], dict[str, np.ndarray],
+                                                   Forward]:
+        """Values, physical conditions (with diffusivities) and the forward model for ``theta``.
+
+        With ``profile = "power-law"`` the model is evaluated at ``reference_radius`` (radii
+        None: arrays (n,)), or at every radius of ``radii`` (au, (R,)) for every row, as flat
+        arrays (n * R,) in sample-major order (one kernel call for all of them).
+        """
         v = self.values(theta)
+        if self.options.profile == "power-law":
+            v = at_radii(v, radii)
         phys = self.physical(v)
         from ..physics.sheet import equilibrium
 
@@ -291,11 +312,11 @@ class Model:
 
     # --------------------------------------------------------------- densities
     def log_prior(self, theta) -> np.ndarray:
-        """Sum of the priors' log-densities in ln-space (n,)."""
+        """Sum of the priors' log-densities in the sampled coordinates (n,)."""
         theta = np.atleast_2d(np.asarray(theta, dtype=float))
         lp = np.zeros(theta.shape[0])
         for i, name in enumerate(self.names):
-            lp = lp + self.priors[name].logpdf_ln(theta[:, i])
+            lp = lp + log_prior_sampled(self.priors[name], theta[:, i])
         return np.where(np.isnan(lp), -np.inf, lp)
 
     def pointwise_loglike(self, theta) -> np.ndarray:
@@ -306,8 +327,7 @@ class Model:
         no growing mode are -inf.
         """
         theta = np.atleast_2d(np.asarray(theta, dtype=float))
-        v, _, fw = self.evaluate(theta)
-        return self._pointwise(v, self._centres(fw))
+        return self._pointwise(*self._predict(theta))
 
     @property
     def selection_active(self) -> bool:
@@ -335,12 +355,38 @@ class Model:
                          f"detection probability, area {o.area / AU**2:.3g} au2")
         return "; ".join(parts)
 
-    def _centres(self, fw: Forward) -> dict[str, np.ndarray]:
-        """The model's wavelength, fragment mass, growth and stability at each observation."""
-        col = fw.wavelength[:, None]
-        return {"wavelength": col, "fragment_mass": fw.fragment_mass[:, None],
-                "wavelength_at_mass": col, "unstable_spacing": fw.unstable[:, None],
-                "unstable_mass": fw.unstable[:, None], "growth_time": fw.growth_time}
+    def _predict(self, theta) -> tuple[dict[str, np.ndarray], dict[str, np.ndarray]]:
+        """Parameter values (n,) and the model at each observation (see :meth:`_centres`)."""
+        if self.plan is None:
+            v, _, fw = self.evaluate(theta)
+            return v, self._centres(fw)
+        _, _, fw = self.evaluate(theta, radii=self.plan.radii)
+        return self.values(theta), self._centres(fw, self.plan)
+
+    @staticmethod
+    def _centres(fw: Forward, plan: RadialPlan | None = None) -> dict[str, np.ndarray]:
+        """The model's wavelength, fragment mass, growth and stability at each observation.
+
+        One column per observation for a radial profile (``plan``), one column for all of them
+        otherwise; the growth time (n,) is the longest at the clumps' radii (every observed
+        clump had to grow).
+        """
+        if plan is None:
+            col = fw.wavelength[:, None]
+            return {"wavelength": col, "fragment_mass": fw.fragment_mass[:, None],
+                    "wavelength_at_mass": col, "unstable_spacing": fw.unstable[:, None],
+                    "unstable_mass": fw.unstable[:, None], "growth_time": fw.growth_time}
+        k = plan.radii.size
+
+        def grid(a):
+            return np.asarray(a).reshape(-1, k)
+
+        lam, unstable = grid(fw.wavelength), grid(fw.unstable)
+        sc, mc = plan.spacing_col, plan.mass_col
+        return {"wavelength": lam[:, sc], "fragment_mass": grid(fw.fragment_mass)[:, mc],
+                "wavelength_at_mass": lam[:, mc], "unstable_spacing": unstable[:, sc],
+                "unstable_mass": unstable[:, mc],
+                "growth_time": np.max(grid(fw.growth_time)[:, mc], axis=1)}
 
     def _pointwise(self, v, c: Mapping[str, np.ndarray]) -> np.ndarray:
         o = self.obs
@@ -380,13 +426,12 @@ class Model:
 
     def log_likelihood(self, theta) -> np.ndarray:
         theta = np.atleast_2d(np.asarray(theta, dtype=float))
-        v, _, fw = self.evaluate(theta)
-        c = self._centres(fw)
+        v, c = self._predict(theta)
         ll = self._pointwise(v, c).sum(axis=1) + self._growth_term(c["growth_time"])
         if self.selection_active:
             ll = ll + self._count(v, c)
         if self.measurements:
-            ll = ll + self.measurement_loglike(self.values(theta))
+            ll = ll + self.measurement_loglike(v)
         return np.where(np.isnan(ll), -np.inf, ll)
 
     def measured_value(self, name: str, v: Mapping[str, np.ndarray]) -> np.ndarray:
@@ -436,7 +481,7 @@ class Model:
 
     def prior_sample(self, rng: np.random.Generator, n: int) -> np.ndarray:
         """n draws of theta from the prior (n, ndim)."""
-        return np.column_stack([np.log(self.priors[k].sample(rng, n)) for k in self.names]) \
+        return np.column_stack([to_sampled(k, self.priors[k].sample(rng, n)) for k in self.names]) \
             if self.names else np.zeros((n, 0))
 
 
@@ -447,8 +492,27 @@ def build_model(config: RunConfig, obs: Observations) -> Model:
         raise InferError("nothing to fit: every parameter in [priors] is fixed")
     if config.model.use_spacings and obs.n_spacings == 0 and not config.model.use_masses:
         raise InferError("the catalog has no spacings to fit")
+    plan = _radial_plan(obs) if config.model.profile == "power-law" else None
     return Model(names=names, priors=dict(config.priors), options=config.model, obs=obs,
-                 measurements=tuple(config.measurements.values()))
+                 measurements=tuple(config.measurements.values()), plan=plan)
+
+
+def _radial_plan(obs: Observations) -> RadialPlan:
+    """The radii of a power-law fit; refuses clumps without a radius or at the centre."""
+    if obs.mass_radius is None or (obs.n_spacings and obs.spacing_radius is None):
+        raise InferError('model.profile = "power-law" needs each clump\'s radius (positions '
+                         'relative to the star); these observations carry none')
+    r = obs.mass_radius
+    scale = float(np.max(r)) if r.size else 0.0
+    at_centre = np.flatnonzero(~(r > 1e-9 * scale))
+    if at_centre.size or scale <= 0:
+        labels = [obs.labels[obs.n_spacings + i].split(":", 1)[-1] for i in at_centre]
+        raise InferError(f"clump {', '.join(map(repr, labels)) or '(all)'} is at the centre "
+                         f"(r = 0), where a radial profile (model.profile = \"power-law\") is "
+                         f"singular: x, y must be offsets from the star; leave it out with "
+                         f"[catalog] exclude = [...] or use profile = \"local\"")
+    return radial_plan(obs.spacing_radius / AU if obs.spacing_radius is not None else
+                       np.zeros(0), r / AU)
 
 
 # labels for plots, exported for the plotting and results modules

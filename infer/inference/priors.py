@@ -47,6 +47,11 @@ PARAMETERS: dict[str, ParamInfo] = {
     "mass_scatter": ParamInfo("dex", r"$\sigma_M$ [dex]", allow_zero=True),
     "spacing_calibration": ParamInfo("", r"$f_\lambda$"),
     "mass_calibration": ParamInfo("", r"$f_M$"),
+    "reference_radius": ParamInfo("au", r"$r_0$ [au]"),
+    "surface_density_index": ParamInfo("", r"$p$", allow_zero=True),
+    "temperature_index": ParamInfo("", r"$q$", allow_zero=True),
+    "mass_to_flux_index": ParamInfo("", r"$i_\mu$", allow_zero=True),
+    "ionization_index": ParamInfo("", r"$i_x$", allow_zero=True),
 }
 
 #: distribution name -> its keys (all required)

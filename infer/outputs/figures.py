@@ -648,7 +648,8 @@ def write_figures(out_dir: str | Path, *, post: Posterior, model: Model, region=
     Returns
     -------
     list of Path
-        The files written: corner.<fmt> then predictive.<fmt>.
+        The files written: corner.<fmt>, predictive.<fmt>, and radial.<fmt> for a
+        ``profile = "power-law"`` fit (:mod:`infer.outputs.radial`).
     """
     fmts = [f.lower().lstrip(".") for f in formats]
     bad = [f for f in fmts if f not in ("pdf", "png")]
@@ -659,7 +660,13 @@ def write_figures(out_dir: str | Path, *, post: Posterior, model: Model, region=
     written: list[Path] = []
     makers = {"corner": lambda: corner_figure(post, model, truths=truths, title=name),
               "predictive": lambda: predictive_figure(post, model, title=name)}
-    for base in FIGURE_NAMES:
+    bases = FIGURE_NAMES
+    if model.plan is not None:
+        from .radial import RADIAL_FILE, radial_band, radial_figure
+
+        makers[RADIAL_FILE] = lambda: radial_figure(radial_band(post, model), title=name)
+        bases = (*FIGURE_NAMES, RADIAL_FILE)
+    for base in bases:
         fig = makers[base]()
         try:
             for fmt in fmts:
