@@ -19,7 +19,7 @@ BASE = dict(surface_density=80 * u.g / u.cm**2, temperature=40 * u.K, field=1.5 
             eta_ad=1e18 * u.cm**2 / u.s, eta_ohm=1e16 * u.cm**2 / u.s,
             stellar_mass=0.4 * u.M_sun, radius=100 * u.au)
 QUANTITIES = ["wavelength", "growth_time", "fragment_mass", "thermal_wavelength", "thermal_mass",
-              "toomre_q", "q_crit_mag", "mass_to_flux", "field", "eta_ad", "eta_ohm",
+              "toomre_q", "toomre_q_critical_magnetic", "mass_to_flux", "field", "eta_ad", "eta_ohm",
               "band_short", "band_long", "midplane_density", "scale_height"]
 
 

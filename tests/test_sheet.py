@@ -212,7 +212,7 @@ def test_magnetic_q_criterion(mu0):
     for factor, grows in ((0.999, True), (1.001, False)):
         out = predict(surface_density=SIGMA_T, temperature=TEMP_T, mass_to_flux=mu0,
                       kappa=kappa_for_q(factor * q_crit, SIGMA_T, TEMP_T))
-        assert out.q_crit_mag.value == pytest.approx(q_crit, rel=1e-12)
+        assert out.toomre_q_critical_magnetic.value == pytest.approx(q_crit, rel=1e-12)
         assert bool(out.unstable) is grows
     # with any diffusion the field cannot stop the growth: the criterion is Q < 1 again
     out = predict(surface_density=SIGMA_T, temperature=TEMP_T, mass_to_flux=mu0,
