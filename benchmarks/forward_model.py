@@ -1,8 +1,10 @@
+#!/usr/bin/env python3
 """Forward-model benchmark: vectorized ``infer.predict`` against a by-hand baseline.
 
-Run from the project root::
+Run from the project root with the project's interpreter (the virtual environment where
+``infer`` is installed)::
 
-    /work/venv/bin/python benchmarks/forward_model.py [--sets 100000] [--baseline-sets 640] [--seed 1]
+    python benchmarks/forward_model.py [--sets 100000] [--baseline-sets 640] [--seed 1]
 
 One run draws random, realistic disk conditions (surface density 1-300 g/cm2,
 temperature 10-100 K, mass-to-flux ratio 0.3-10, ambipolar and Ohmic

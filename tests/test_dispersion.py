@@ -388,7 +388,7 @@ D_MAX = 1 / (4 * C2) - KAPPA**2   # |D| at that maximum
 
 
 @pytest.mark.parametrize("tau", [0.01, 0.3, 3.0])
-def test_ambipolar_plateau_for_strong_fields(tau):
+def test_strong_field_limit_with_fixed_collision_time(tau):
     # Fixed neutral-ion collision time: theta = tau Lambda, i.e. eta = tau v_A^2 = tau Z0/mu0^2.
     # Divide the cubic by Lambda and let Lambda -> inf (mu0 -> 0): tau g^2 + g + tau D = 0,
     # so g -> (sqrt(1 + 4 tau^2 |D|) - 1) / (2 tau), increasing in |D|: the fastest
