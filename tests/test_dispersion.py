@@ -430,6 +430,12 @@ def test_near_critical_wavelength_peak(eta):
     # the fastest wavelength should peak at several thermal wavelengths just above
     # mu0 = 1 and return to lambda_T on both sides -- towards small mu0 by the Ohmic law
     # above, towards large mu0 to the flux-frozen value, which -> lambda_T.
+    # The bracket 1 < mu0 < 1.3 and the height > 3 are our own loose statement of
+    # "several thermal wavelengths just above critical", not published values: an
+    # independent evaluation (numpy.roots of the cubic written out from docs/physics.md,
+    # "Dimensionless form", on a dense k grid; reference library) puts the peak near
+    # mu0 = 1.03 with height about 18 for eta = 0.1 and near mu0 = 1.09 with height about
+    # 4.8 for eta = 0.3; the height at the kernel's peak is checked against it below.
     p0 = 0.0
     mu0 = np.geomspace(0.05, 50, 400)
     fm = dp.fastest_mode(params(mu0, p0, 0.0, eta))
@@ -437,6 +443,11 @@ def test_near_critical_wavelength_peak(eta):
     j = int(np.argmax(ratio))
     assert 1.0 < mu0[j] < 1.3
     assert ratio[j] > 3.0
+    # independent height at mu0[j]: grid step 0.05 % in k, so 0.1 % tolerance
+    k = fm.k[j] * np.geomspace(0.5, 2.0, 2801)
+    d, lam, theta, _, _ = physics_terms(k, mu0[j], p0, 0.0, eta)
+    g = [np.roots([1.0, t, dd + ll, t * dd]).real.max() for t, dd, ll in zip(theta, d, lam, strict=True)]
+    assert 0.5 / k[int(np.argmax(g))] == pytest.approx(ratio[j], rel=1e-3)
     assert np.all(np.diff(ratio[: j + 1]) > -1e-9)   # rises to the peak ...
     assert np.all(np.diff(ratio[j:]) < 1e-9)         # ... and falls after it
     assert ratio[0] == pytest.approx(1.0, abs=0.01)
