@@ -141,7 +141,7 @@ def test_python_dash_m_exit_code_and_message():
 
 
 def test_json_matches_thermal_reference(capsys):
-    # worked value of docs/checks.md ("Thin sheet") through the command line:
+    # worked value of docs/checks.md ("Thin sheet and disk") through the command line:
     # N(H2) = 1e22 cm^-2, 10 K -> lambda_m = 0.0734 pc (computed there from the
     # thin-sheet relation of Larson 1985, MNRAS 214, 379; citation from memory)
     code, out, _ = run(["predict", "--column-density", "1e22 cm-2", "--temperature", "10 K",
