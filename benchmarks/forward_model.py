@@ -1,15 +1,17 @@
-"""Forward-model benchmark: vectorized ``infer.physics.predict`` against a by-hand baseline.
+#!/usr/bin/env python3
+"""Forward-model benchmark: vectorized ``infer.predict`` against a by-hand baseline.
 
-Run from the project root::
+Run from the project root with the project's interpreter (the virtual environment where
+``infer`` is installed)::
 
-    /work/venv/bin/python benchmarks/forward_model.py [--sets 100000] [--baseline-sets 640] [--seed 1]
+    python benchmarks/forward_model.py [--sets 100000] [--baseline-sets 640] [--seed 1]
 
 One run draws random, realistic disk conditions (surface density 1-300 g/cm2,
 temperature 10-100 K, mass-to-flux ratio 0.3-10, ambipolar and Ohmic
 diffusivities 1e14-1e21 cm2/s each, Keplerian epicyclic frequency for a
 0.2-2 Msun star at 20-200 au; all log-uniform) and measures
 
-* the vectorized model: one ``infer.physics.predict`` call on all of them
+* the vectorized model: one ``infer.predict`` call on all of them
   (Quantity in, Quantity out, validation included);
 * a baseline written by hand the obvious way, one set at a time: the closed-form
   unstable band, then ``scipy.optimize.minimize_scalar`` (bounded, in log k
@@ -28,7 +30,7 @@ interleaved runs, so that other work on a shared machine disturbs them less.
 
 Recorded figures (2-core shared VM, load ~3, numpy 2.4, 2026-12-01):
 
-    vectorized infer.physics.predict: 100000 sets in 0.132 s -> 759,389 sets/s (31.3% unstable)
+    vectorized infer.predict: 100000 sets in 0.132 s -> 759,389 sets/s (31.3% unstable)
     baseline (numpy.roots inside minimize_scalar, one set at a time): 640 sets in
         0.205 s -> 3,123 sets/s (215 unstable)
     throughput ratio: 243 (goal >= 300)             [231-243 over three runs]
@@ -147,7 +149,7 @@ def main() -> None:
     err_lam = np.max(np.abs(lam_v[:nb][both] / lam_b[both] - 1.0)) if both.any() else np.nan
     err_rate = np.max(np.abs(rate_v[:nb][both] / rate_b[both] - 1.0)) if both.any() else np.nan
 
-    print(f"vectorized infer.physics.predict: {args.sets} sets in {t_v:.3f} s -> {thr_v:,.0f} sets/s "
+    print(f"vectorized infer.predict: {args.sets} sets in {t_v:.3f} s -> {thr_v:,.0f} sets/s "
           f"({np.mean(np.isfinite(lam_v)):.1%} unstable)")
     print(f"baseline (numpy.roots inside minimize_scalar, one set at a time): {nb} sets in "
           f"{t_b:.3f} s -> {thr_b:,.0f} sets/s ({fin_b.sum()} unstable)")

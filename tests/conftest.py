@@ -1,4 +1,4 @@
-"""Shared fixtures: a run configuration like the architecture's example, small observations."""
+"""Shared fixtures: an example run configuration (the form of catalogs/demo_disk.toml), small observations."""
 
 from __future__ import annotations
 

@@ -17,7 +17,7 @@ from infer import InferError, predict
 from infer.cli import main
 from infer.physics.spectrum import growth_spectrum, write_spectrum
 
-M_H = 1.00784 * u.u          # standard atomic weight of H (IUPAC), physics.md convention
+M_H = 1.00784 * u.u          # standard atomic weight of H (IUPAC), docs/physics.md "Inputs"
 DISK = ["--surface-density", "60 g/cm2", "--temperature", "35 K", "--mass-to-flux", "1.6",
         "--ionization", "1e-10", "--stellar-mass", "0.5 solMass", "--radius", "80 au"]
 ROTATING = ["--surface-density", "50 g/cm2", "--temperature", "30 K", "--kappa", "2e-10 1/s"]
@@ -68,8 +68,9 @@ def test_csv_matches_rotating_disk_dispersion_relation(tmp_path, capsys):
 
 
 def test_csv_magnetized_diffusive_against_numpy_roots(tmp_path, capsys):
-    # physics.md sec. 3 cubic, written out dimensionally with astropy constants and solved
-    # with numpy.roots (reference library) at each wavelength of the file.
+    # the cubic of docs/physics.md ("Dispersion relation"), written out dimensionally with
+    # astropy constants and solved with numpy.roots (reference library) at each wavelength
+    # of the file.
     out = tmp_path / "disk.csv"
     code, _, _ = run(["spectrum", *DISK, "--out", str(out)], capsys)
     assert code == 0

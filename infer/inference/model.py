@@ -6,7 +6,7 @@ whose ``__call__`` evaluates the log-posterior of a whole ensemble at once
 (emcee ``vectorize=True``): an array (n_walkers, n_dim) in, an array
 (n_walkers,) out, finite or -inf, never NaN.
 
-Likelihood (physics note, section 7)::
+Likelihood (docs/physics.md, "Likelihood")::
 
     ln s_e ~ Normal(ln(f_lambda lambda_m), sigma_lambda^2 + (ds_e / s_e)^2)
     ln m_j ~ Normal(ln(f_M M_frag),       sigma_M^2      + (dm_j / m_j)^2)

@@ -1,6 +1,6 @@
 """Dimensionless dispersion relation of the magnetized, diffusive, rotating thin sheet.
 
-Units (physics note, section 4): surface density Sigma, sound speed c_s, length
+Units (docs/physics.md, "Dimensionless form"): surface density Sigma, sound speed c_s, length
 L0 = c_s^2 / (2 pi G Sigma), time t0 = c_s / (2 pi G Sigma). With the
 dimensionless wavenumber ``k`` (= k L0) the growth rate ``g`` (= gamma t0)
 solves the cubic
