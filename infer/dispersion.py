@@ -21,8 +21,9 @@ golden-section steps) applied to all sets at once.
 :func:`fastest_mode` has two interchangeable paths: this module's numpy arrays
 and a compiled loop over the sets (:mod:`infer.kernel_compiled`, numba), which
 runs the same algorithm with far less per-call overhead. The compiled one is
-used when numba can be imported; choose with the ``kernel`` argument or the
-environment variable ``INFER_KERNEL`` (``auto``, ``compiled`` or ``numpy``).
+used when numba can be imported; choose with the ``kernel`` argument, with
+:func:`set_kernel`, or with the environment variable ``INFER_KERNEL`` (``auto``,
+``compiled`` or ``numpy``; read at the first call).
 """
 
 from __future__ import annotations
@@ -47,6 +48,7 @@ __all__ = [
     "KERNEL_ENV",
     "KERNELS",
     "compiled_available",
+    "set_kernel",
 ]
 
 KERNEL_ENV = "INFER_KERNEL"               # environment variable choosing the fastest-mode path
@@ -108,9 +110,10 @@ def sheet_params(*, inv_mu2, p_ext=0.0, kappa=0.0, eta=0.0) -> SheetParams:
     inv_mu2, p_ext, kappa, eta : array_like
         See :class:`SheetParams`; all must be finite and non-negative.
     """
-    arrays = np.broadcast_arrays(
-        *(np.asarray(x, dtype=float) for x in (inv_mu2, p_ext, kappa, eta))
-    )
+    arrays = [np.asarray(x, dtype=float) for x in (inv_mu2, p_ext, kappa, eta)]
+    shapes = [a.shape for a in arrays]
+    if shapes.count(shapes[0]) != 4:        # (equal shapes, the sampler's case: no broadcast)
+        arrays = np.broadcast_arrays(*arrays)
     return SheetParams(*(np.array(a, dtype=float) for a in arrays))
 
 
@@ -441,7 +444,7 @@ def compiled_available() -> bool:
         except ImportError:
             _compiled_kernel = False
         else:
-            _compiled_kernel = functools.partial(fastest_mode_arrays, tun=TUNING)
+            _compiled_kernel = functools.partial(fastest_mode_arrays, TUNING)
     return _compiled_kernel is not False
 
 
@@ -479,9 +482,9 @@ def fastest_mode(p: SheetParams, *, kernel: str | None = None) -> FastestMode:
     p : SheetParams
         Any shape.
     kernel : {"auto", "compiled", "numpy"}, optional
-        Which path computes it; default: the environment variable ``INFER_KERNEL``
-        as read at the first call, else "auto" (compiled when numba can be
-        imported, else numpy).
+        Which path computes it; default: as set by :func:`set_kernel`, else the
+        environment variable ``INFER_KERNEL`` as read at the first call, else
+        "auto" (compiled when numba can be imported, else numpy).
 
     Returns
     -------
@@ -517,30 +520,53 @@ def _read_default_kernel() -> str:
     return _default_kernel
 
 
+def set_kernel(kernel: str | None) -> None:
+    """Set the path :func:`fastest_mode` takes when called without ``kernel=``.
+
+    Parameters
+    ----------
+    kernel : {"auto", "compiled", "numpy"} or None
+        None: read the environment variable ``INFER_KERNEL`` again at the next call.
+
+    Raises
+    ------
+    InferError
+        For an unknown name.
+    """
+    global _default_kernel
+    if kernel is not None and kernel not in KERNELS:
+        raise InferError(f"unknown fastest-mode kernel {kernel!r}; pass one of {', '.join(KERNELS)}")
+    _default_kernel = kernel
+
+
 _F8 = np.dtype(np.float64)
 
 
 def _fastest_mode_compiled(p: SheetParams) -> FastestMode:
     """:func:`fastest_mode` by the compiled loop: one call for all sets.
 
-    The compiled function takes 1-D contiguous float64 arrays; the usual input
-    (from :func:`sheet_params`, 1-D) is passed without copies, so a call on a
-    sampler's batch costs little more than the arithmetic.
+    The compiled function takes 1-D contiguous float64 arrays of one length (it
+    raises TypeError or ValueError for anything else); the usual input (from
+    :func:`sheet_params`, 1-D) is passed as it is, so a call on a sampler's batch
+    costs little more than the arithmetic. Other shapes are flattened first.
     """
-    arrays = (p.inv_mu2, p.p_ext, p.kappa, p.eta)
-    first = arrays[0]
-    if not all(type(a) is np.ndarray and a.ndim == 1 and a.dtype == _F8 and a.shape == first.shape
-               and a.flags.c_contiguous for a in arrays):
-        shapes = [np.shape(a) for a in arrays]
-        shape = shapes[0] if shapes.count(shapes[0]) == 4 else np.broadcast_shapes(*shapes)
-        flat = [np.ascontiguousarray(a if s == shape else np.broadcast_to(a, shape),
-                                     dtype=_F8).reshape(-1) for a, s in zip(arrays, shapes, strict=True)]
-        k, g, k_lo, k_hi = _compiled_kernel(*flat)
-        return FastestMode(k=k.reshape(shape), growth_rate=g.reshape(shape),
-                           unstable=np.isfinite(g).reshape(shape), k_lo=k_lo.reshape(shape),
-                           k_hi=k_hi.reshape(shape))
-    k, g, k_lo, k_hi = _compiled_kernel(*arrays)
-    return FastestMode(k=k, growth_rate=g, unstable=np.isfinite(g), k_lo=k_lo, k_hi=k_hi)
+    arrays = m, pe, ka, et = p.inv_mu2, p.p_ext, p.kappa, p.eta
+    if (getattr(m, "ndim", 0) == 1 and getattr(pe, "ndim", 0) == 1 and getattr(ka, "ndim", 0) == 1
+            and getattr(et, "ndim", 0) == 1):
+        try:
+            k, g, grows, k_lo, k_hi = _compiled_kernel(m, pe, ka, et)
+        except (TypeError, ValueError):     # another dtype or layout, or unequal lengths
+            pass
+        else:
+            return FastestMode(k=k, growth_rate=g, unstable=grows, k_lo=k_lo, k_hi=k_hi)
+    shapes = [np.shape(a) for a in arrays]
+    shape = shapes[0] if shapes.count(shapes[0]) == 4 else np.broadcast_shapes(*shapes)
+    flat = [np.ascontiguousarray(a if s == shape else np.broadcast_to(a, shape),
+                                 dtype=_F8).reshape(-1) for a, s in zip(arrays, shapes, strict=True)]
+    k, g, grows, k_lo, k_hi = _compiled_kernel(*flat)
+    return FastestMode(k=k.reshape(shape), growth_rate=g.reshape(shape),
+                       unstable=grows.reshape(shape), k_lo=k_lo.reshape(shape),
+                       k_hi=k_hi.reshape(shape))
 
 
 def _fastest_mode_numpy(p: SheetParams) -> FastestMode:

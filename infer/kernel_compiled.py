@@ -9,8 +9,9 @@ Newton polish in (g, k), golden-section fallback, second-peak and low-k
 extension checks), so both give the same numbers to round-off; the test
 ``tests/test_kernel_paths.py`` holds them to 1e-12.
 
-The functions compile at their first call and are cached on disk
-(``cache=True``), so later processes only load them. ``error_model="numpy"``
+The entry point :func:`fastest_mode_arrays` has a fixed signature, so it compiles
+when this module is first imported (at the first compiled fastest_mode call), and
+is cached on disk (``cache=True``), so later processes only load it. ``error_model="numpy"``
 gives IEEE results (inf, NaN) for a division by zero, as numpy does, where
 Python semantics would raise.
 
@@ -304,23 +305,34 @@ def _one(m, c2, z0, kap2, eta, klo, khi, cand, g_c, exact, xs, ge, ex, tun):
     return k1, g1
 
 
-@njit(**_JIT)
-def fastest_mode_arrays(inv_mu2, p_ext, kappa, eta, tun):
-    """Fastest mode of every set of 1-D float64 arrays of equal length.
+_VEC = "float64[::1]"
 
-    ``tun`` is :data:`TUNING` (the constants of :mod:`infer.dispersion`).
+
+@njit(f"({', '.join([_VEC] * 5)},)", **_JIT)
+def fastest_mode_arrays(tun, inv_mu2, p_ext, kappa, eta):
+    """Fastest mode of every set of 1-D contiguous float64 arrays of equal length.
+
+    ``tun`` is :data:`TUNING` (the constants of :mod:`infer.dispersion`). Other array
+    types raise TypeError (the signature is fixed, so nothing new is compiled), and
+    unequal lengths ValueError.
 
     Returns
     -------
-    k, g, k_lo, k_hi : ndarray
-        Wavenumber and growth rate of the fastest mode (NaN where nothing grows) and the
-        edges of the unstable band (NaN where there is none), dimensionless (physics.md
-        sec. 4).
+    k, g : ndarray
+        Wavenumber and growth rate of the fastest mode (NaN where nothing grows),
+        dimensionless (physics.md sec. 4).
+    unstable : ndarray of bool
+        Where a mode grows.
+    k_lo, k_hi : ndarray
+        Edges of the unstable band (NaN where there is none).
     """
     n = inv_mu2.size
+    if p_ext.size != n or kappa.size != n or eta.size != n:
+        raise ValueError("fastest_mode_arrays: the parameter arrays differ in length")
     n_grid = int(tun[_GRID])
     k_out = np.full(n, np.nan)
     g_out = np.full(n, np.nan)
+    grows = np.zeros(n, dtype=np.bool_)
     lo_out = np.full(n, np.nan)
     hi_out = np.full(n, np.nan)
     cand = np.empty(n_grid + 2)
@@ -344,4 +356,5 @@ def fastest_mode_arrays(inv_mu2, p_ext, kappa, eta, tun):
         if g1 > 0.0:
             k_out[i] = k1
             g_out[i] = g1
-    return k_out, g_out, lo_out, hi_out
+            grows[i] = True
+    return k_out, g_out, grows, lo_out, hi_out

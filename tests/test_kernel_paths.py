@@ -126,7 +126,8 @@ def test_compiled_rate_is_the_largest_root_of_the_cubic(box):
 def test_fastest_mode_against_scipy(kernel, monkeypatch):
     # the reference of tests/test_dispersion.py (dense grid of companion-matrix roots, then
     # scipy.optimize.minimize_scalar), random sets and the sets with two close peaks
-    monkeypatch.setattr(dp, "_default_kernel", kernel)
+    monkeypatch.setattr(dp, "_default_kernel", None)      # restored afterwards
+    dp.set_kernel(kernel)
     mu0, p_ext, kappa, eta, _ = td.random_sets(150, seed=41, ideal_fraction=0.15)
     assert td.check_against_scipy(mu0, p_ext, kappa, eta).sum() > 70
     td.check_against_scipy(*td.TWO_PEAKS.T)
@@ -205,17 +206,20 @@ def test_kernel_choice(monkeypatch):
     ref = dp.fastest_mode(p, kernel="numpy")
     with pytest.raises(InferError, match="INFER_KERNEL"):
         dp.fastest_mode(p, kernel="fast")
-    # the environment variable is read once, at the first call without kernel=
-    monkeypatch.setattr(dp, "_default_kernel", None)
+    with pytest.raises(InferError, match="'fast'"):
+        dp.set_kernel("fast")
+    # the environment variable is read once, at the first call without kernel= (or again
+    # after set_kernel(None))
+    monkeypatch.setattr(dp, "_default_kernel", None)      # restored afterwards
     monkeypatch.setenv("INFER_KERNEL", "gpu")
     with pytest.raises(InferError, match="'gpu'"):
         dp.fastest_mode(p)
-    monkeypatch.setattr(dp, "_default_kernel", None)
+    dp.set_kernel(None)
     monkeypatch.setenv("INFER_KERNEL", "numpy")
     monkeypatch.setattr(dp, "_fastest_mode_compiled", None)    # would fail if called
     assert_same(dp.fastest_mode(p), ref, tol=0)
     # numba missing: "auto" falls back to numpy, "compiled" says what to do
-    monkeypatch.setattr(dp, "_default_kernel", "auto")
+    dp.set_kernel("auto")
     monkeypatch.setattr(dp, "_compiled_kernel", False)
     assert_same(dp.fastest_mode(p), ref, tol=0)
     with pytest.raises(InferError, match="numba"):
