@@ -26,14 +26,28 @@ call unstable. Goals: ratio >= 300; disagreement < 1e-6 in wavelength and
 Times are CPU times of this process (time.process_time), best of ``--repeat``
 interleaved runs, so that other work on a shared machine disturbs them less.
 
-Recorded figures (2-core shared VM, load ~3, numpy 2.4, 2026-12-01):
+Also printed: the agreement of the compiled and numpy kernel paths over all the sets,
+the time of the first compiled call of the process, and the CPU time of one
+``infer.dispersion.fastest_mode`` call on 16 and on 1000 unstable sets for both paths
+(a sampler's batch, dimensionless parameters ready), beside a trivial vectorized numpy
+log-probability call for scale.
 
-    vectorized infer.predict: 100000 sets in 0.132 s -> 759,389 sets/s (31.3% unstable)
+Recorded figures (2-core shared VM, numpy 2.4, numba 0.68, 2026-12-04; three runs,
+load average 1.75, 1.94, 2.10 at their starts):
+
     baseline (numpy.roots inside minimize_scalar, one set at a time): 640 sets in
-        0.205 s -> 3,123 sets/s (215 unstable)
-    throughput ratio: 243 (goal >= 300)             [231-243 over three runs]
-    sets unstable in both: 215; unstable in only one: 0
-    largest relative disagreement: wavelength 2.41e-07, growth rate 1.32e-12
+        0.088-0.090 s -> 7,144-7,271 sets/s (215 unstable)
+    vectorized infer.predict, compiled kernel: 100000 sets in 0.029 s
+        throughput ratio: 480, 470, 484 (goal >= 300)
+    vectorized infer.predict, numpy kernel: 100000 sets in 0.056-0.081 s
+        throughput ratio: 250, 170, 244
+    both paths: sets unstable in both 215, in only one 0; largest relative disagreement
+        with the baseline: wavelength 2.41e-07, growth rate 1.32e-12
+    compiled vs numpy over all 100000 sets: same unstable sets; wavelength 3.1e-15,
+        growth rate 2.2e-15
+    fastest_mode per call (per set): N=16 compiled 11.6-12.0 us (0.73-0.75 us),
+        numpy 730-756 us (46-47 us); N=1000 compiled 497-512 us (0.50-0.51 us),
+        numpy 2497-2621 us (2.5-2.6 us); trivial numpy log-probability call 3.3-3.4 us
 
 The wavelength disagreement is the baseline's: scipy's bounded scalar search stops at
 ~sqrt(eps) relative in log k on a flat maximum.
@@ -149,14 +163,13 @@ def first_compiled_call() -> str:
     t = time.perf_counter()
     if not dispersion.compiled_available():
         return "compiled kernel: numba cannot be imported; numpy path only"
-    t_import = time.perf_counter() - t
     dispersion.fastest_mode(dispersion.sheet_params(inv_mu2=0.4, kappa=0.1, eta=0.01),
                             kernel="compiled")
     t_all = time.perf_counter() - t
     from infer.kernel_compiled import fastest_mode_arrays
-    how = "loaded from the on-disk cache" if fastest_mode_arrays.stats.cache_hits else "compiled"
-    return (f"first compiled call of this process: {t_all:.2f} s wall ({how}; "
-            f"{t_import:.2f} s of it importing numba and the module)")
+    how = ("loaded from the on-disk cache" if fastest_mode_arrays.stats.cache_hits
+           else "compiled, no cache yet")
+    return f"first compiled call of this process: {t_all:.2f} s wall (numba import; {how})"
 
 
 def main() -> None:
