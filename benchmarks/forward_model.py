@@ -64,8 +64,9 @@ import astropy.units as u
 import numpy as np
 from scipy.optimize import minimize_scalar
 
-from infer import dispersion, predict
+from infer import predict
 from infer.constants import AU, M_SUN, YR, G
+from infer.physics import dispersion
 from infer.physics.sheet import equilibrium
 
 
@@ -168,7 +169,7 @@ def first_compiled_call() -> str:
     dispersion.fastest_mode(dispersion.sheet_params(inv_mu2=0.4, kappa=0.1, eta=0.01),
                             kernel="compiled")
     t_all = time.perf_counter() - t
-    from infer.kernel_compiled import fastest_mode_arrays
+    from infer.physics.kernel_compiled import fastest_mode_arrays
     how = ("loaded from the on-disk cache" if fastest_mode_arrays.stats.cache_hits
            else "compiled, no cache yet")
     return f"first compiled call of this process: {t_all:.2f} s wall (numba import; {how})"

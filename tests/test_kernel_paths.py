@@ -23,8 +23,8 @@ from pathlib import Path
 import numpy as np
 import pytest
 
-from infer import dispersion as dp
 from infer.errors import InferError
+from infer.physics import dispersion as dp
 
 HERE = Path(__file__).parent
 sys.path.insert(0, str(HERE))
@@ -235,11 +235,11 @@ def _run(code, **env):
 PROBE = """
 import json, sys
 {pre}
-from infer import dispersion as dp
+from infer.physics import dispersion as dp
 p = dp.sheet_params(inv_mu2=[0.3, 0.9, 2.0], p_ext=0.2, kappa=0.1, eta=[0.01, 1e-4, 0.0])
 m = dp.fastest_mode(p)
 print(json.dumps({{"k": [None if x != x else x for x in m.k.tolist()], "numba": "numba" in sys.modules,
-                  "compiled": "infer.kernel_compiled" in sys.modules}}))
+                  "compiled": "infer.physics.kernel_compiled" in sys.modules}}))
 """
 
 

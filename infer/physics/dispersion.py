@@ -19,7 +19,7 @@ over parameter sets; the only loops are fixed-length iterations (Newton steps,
 golden-section steps) applied to all sets at once.
 
 :func:`fastest_mode` has two interchangeable paths: this module's numpy arrays
-and a compiled loop over the sets (:mod:`infer.kernel_compiled`, numba), which
+and a compiled loop over the sets (:mod:`infer.physics.kernel_compiled`, numba), which
 runs the same algorithm with far less per-call overhead. The compiled one is
 used when numba can be imported; choose with the ``kernel`` argument, with
 :func:`set_kernel`, or with the environment variable ``INFER_KERNEL`` (``auto``,
@@ -34,7 +34,7 @@ from dataclasses import dataclass
 
 import numpy as np
 
-from .errors import InferError
+from ..errors import InferError
 
 __all__ = [
     "SheetParams",
@@ -473,7 +473,7 @@ def fastest_mode(p: SheetParams, *, kernel: str | None = None) -> FastestMode:
 
     Two paths run these steps and agree to round-off (tests/test_kernel_paths.py):
     numpy arrays, all parameter sets advancing together (no Python loop over
-    sets), and a compiled loop over the sets (:mod:`infer.kernel_compiled`), which
+    sets), and a compiled loop over the sets (:mod:`infer.physics.kernel_compiled`), which
     compiles at its first use in a fresh install (a few seconds; then it is
     cached on disk) and costs far less per call.
 
