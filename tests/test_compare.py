@@ -21,8 +21,6 @@ from infer.cli import main
 from infer.errors import InferError
 from infer.inference.comparison import LooResult, compare_fits, compare_loo, psis_loo
 
-pytest.importorskip("arviz_stats")
-
 S = 4000
 
 
@@ -40,6 +38,7 @@ def _exact_elpd(y: np.ndarray) -> np.ndarray:
 
 
 def test_psis_loo_matches_exact_conjugate_normal():
+    pytest.importorskip("arviz_stats")    # PSIS-LOO (the report extra)
     y = np.random.default_rng(11).normal(0.3, 1.0, 40)
     r = psis_loo(_normal_model(y))
     exact = _exact_elpd(y)
@@ -54,6 +53,7 @@ def test_psis_loo_matches_exact_conjugate_normal():
 
 
 def test_loo_prefers_the_generating_model():
+    pytest.importorskip("arviz_stats")    # PSIS-LOO (the report extra)
     y = np.random.default_rng(5).normal(0.0, 1.0, 60)
     good = psis_loo(_normal_model(y, seed=1))
     bad = psis_loo(_normal_model(y, shift=1.5, seed=2))       # predicts a mean 1.5 sd off
@@ -68,6 +68,7 @@ def test_loo_prefers_the_generating_model():
 
 
 def test_no_preference_when_models_predict_the_same():
+    pytest.importorskip("arviz_stats")    # PSIS-LOO (the report extra)
     y = np.random.default_rng(8).normal(0.0, 1.0, 60)
     a = psis_loo(_normal_model(y, seed=3))
     b = psis_loo(_normal_model(y, seed=4))                    # same model, other posterior draws
@@ -106,6 +107,7 @@ def test_high_pareto_k_is_reported():
 
 def test_outlier_gives_large_pareto_k():
     # one observation 8 sd away dominates its own leave-one-out weights
+    pytest.importorskip("arviz_stats")    # PSIS-LOO (the report extra)
     y = np.r_[np.random.default_rng(2).normal(0.0, 1.0, 9), 8.0]
     r = psis_loo(_normal_model(y))
     assert r.pareto_k[-1] > 0.7
@@ -148,6 +150,7 @@ def _snapshot(d: Path):
 
 
 def test_compare_fits_and_cli_write_compare_md(two_fits, capsys):
+    pytest.importorskip("arviz_stats")    # PSIS-LOO (the report extra)
     d1, d2, *_ = two_fits
     c = compare_fits(d1, d2)
     assert c.preferred == 0 and c.names == ("good", "bad")

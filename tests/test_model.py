@@ -5,8 +5,7 @@ from __future__ import annotations
 import pickle
 
 import numpy as np
-from hypothesis import HealthCheck, given, settings
-from hypothesis import strategies as st
+from hypothesis_compat import HealthCheck, given, settings, st
 from scipy import stats
 
 from infer.inference.config import parse_config
