@@ -47,7 +47,7 @@ def flat_top_bound(k, p, g, eps_g):
     Near the maximum g(k) ~ g_m + g'' (k - k_m)^2 / 2, so a relative error eps_g in the
     growth rate leaves k undetermined by sqrt(2 eps_g g / |g''|). Implicit
     differentiation of the cubic p(g, k) = 0 at dg/dk = 0 gives g'' = -p_kk / p_g
-    (coefficients of physics.md sec. 4, written out here).
+    (coefficients of docs/physics.md, "Dimensionless form", written out here).
     """
     z0, c2, eta = 2 / (1 + p.p_ext), (1 + 3 * p.p_ext) / (1 + p.p_ext) ** 2, p.eta
     va2 = z0 * p.inv_mu2
@@ -104,7 +104,7 @@ def test_compiled_rate_is_the_largest_root_of_the_cubic(box):
     j = rng.choice(np.flatnonzero(fc.unstable), 1000, replace=False)
     q = dp.SheetParams(*(getattr(p, a)[j] for a in ("inv_mu2", "p_ext", "kappa", "eta")))
     k, g = fc.k[j], fc.growth_rate[j]
-    d, lam, theta = dp.coefficients(k, q)      # checked against physics.md in test_dispersion
+    d, lam, theta = dp.coefficients(k, q)      # checked against docs/physics.md in test_dispersion
     b = d + lam
     raw = np.array([np.roots([1.0, t, bb, t * dd]).real.max()
                     for t, bb, dd in zip(theta, b, d, strict=True)])
@@ -187,7 +187,7 @@ def test_paths_agree_on_walker_sized_batches_of_any_shape(box):
     assert_same(fc, fn)
     # field-free, non-rotating, P_ext = 0: k_m = 1/2, gamma_m t0 = 1/2, i.e.
     # lambda_m = 2 c_s^2 / (G Sigma) and gamma_m = pi G Sigma / c_s (Larson 1985, MNRAS
-    # 214, 379), in the units of physics.md sec. 4 (L0 = c_s^2 / (2 pi G Sigma))
+    # 214, 379), in the units of docs/physics.md, "Dimensionless form" (L0 = c_s^2 / (2 pi G Sigma))
     np.testing.assert_allclose([fc.k[0], fc.growth_rate[0]], [0.5, 0.5], rtol=1e-14)
 
 

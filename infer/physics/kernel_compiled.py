@@ -1,10 +1,10 @@
-"""Compiled (numba) fastest-mode kernel: the algorithm of :func:`infer.dispersion.fastest_mode`.
+"""Compiled (numba) fastest-mode kernel: the algorithm of :func:`infer.physics.dispersion.fastest_mode`.
 
 One call loops over all parameter sets inside machine code, so a sampler's
 batch of 16-32 walkers costs a few microseconds instead of the ~100 numpy
 calls of the array path, and large batches run several times faster too.
 The steps, constants, tolerances and the order of the floating-point
-operations are those of the numpy path in :mod:`infer.dispersion` (scan,
+operations are those of the numpy path in :mod:`infer.physics.dispersion` (scan,
 Newton polish in (g, k), golden-section fallback, second-peak and low-k
 extension checks), so both give the same numbers to round-off; the test
 ``tests/test_kernel_paths.py`` holds them to 1e-12.
@@ -15,7 +15,7 @@ is cached on disk (``cache=True``), so later processes only load it. ``error_mod
 gives IEEE results (inf, NaN) for a division by zero, as numpy does, where
 Python semantics would raise.
 
-Import this module only through :func:`infer.dispersion.fastest_mode`, which
+Import this module only through :func:`infer.physics.dispersion.fastest_mode`, which
 falls back to the numpy path when numba is not installed.
 """
 
@@ -32,9 +32,9 @@ __all__ = ["TUNING", "fastest_mode_arrays"]
 
 _JIT = dict(cache=True, error_model="numpy", nogil=True)
 
-# The tuning constants of infer.dispersion, passed to the compiled code as an array at
+# The tuning constants of infer.physics.dispersion, passed to the compiled code as an array at
 # every call rather than frozen into it: numba's on-disk cache is keyed on this file only,
-# so a constant compiled in from infer.dispersion would survive a change there.
+# so a constant compiled in from infer.physics.dispersion would survive a change there.
 _NAMES = ("_N_GRID", "_N_GOLDEN", "_N_POLISH", "_N_NEWTON", "_LOG_K_SPAN_NO_ROTATION",
           "_ROUNDOFF", "_PLATEAU", "_GOLDEN")
 _GRID, _NGOLD, _NPOL, _NNEWT, _SPAN, _ROUND, _PLAT, _GOLD = range(len(_NAMES))
@@ -312,7 +312,7 @@ _VEC = "float64[::1]"
 def fastest_mode_arrays(tun, inv_mu2, p_ext, kappa, eta):
     """Fastest mode of every set of 1-D contiguous float64 arrays of equal length.
 
-    ``tun`` is :data:`TUNING` (the constants of :mod:`infer.dispersion`). Other array
+    ``tun`` is :data:`TUNING` (the constants of :mod:`infer.physics.dispersion`). Other array
     types raise TypeError (the signature is fixed, so nothing new is compiled), and
     unequal lengths ValueError.
 
@@ -320,7 +320,7 @@ def fastest_mode_arrays(tun, inv_mu2, p_ext, kappa, eta):
     -------
     k, g : ndarray
         Wavenumber and growth rate of the fastest mode (NaN where nothing grows),
-        dimensionless (physics.md sec. 4).
+        dimensionless (docs/physics.md, "Dimensionless form").
     unstable : ndarray of bool
         Where a mode grows.
     k_lo, k_hi : ndarray
