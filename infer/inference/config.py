@@ -20,6 +20,7 @@ import numpy as np
 
 from ..errors import ConfigError
 from ..units import parse_quantity
+from .measurements import Measurement, parse_measurements
 from .priors import PARAMETERS, Prior, parse_prior
 
 __all__ = [
@@ -33,6 +34,8 @@ __all__ = [
 ]
 
 DIFFUSION_MODES = ("ionization", "free", "ideal")
+#: values of [model] selection
+SELECTION_MODES = ("auto", "off")
 #: more walkers than this is a typo, not a run (the sampler's arrays would not fit in memory)
 MAX_WALKERS = 100_000
 #: the sampler allocates check_every steps of the chain at once
@@ -71,6 +74,9 @@ class ModelOptions:
     growth_constraint : {"soft", "hard"}
     growth_width_dex : float
         Width of the soft (log-normal CDF) constraint, dex.
+    selection : {"auto", "off"}
+        "auto": model the catalog's beam, detection limit and searched area when it states
+        them (truncated likelihood terms, expected number of clumps); "off": ignore them.
     """
 
     diffusion: str = "ionization"
@@ -82,6 +88,7 @@ class ModelOptions:
     growth_time_max: float | None = None
     growth_constraint: str = "soft"
     growth_width_dex: float = 0.2
+    selection: str = "auto"
 
 
 @dataclass(frozen=True)
@@ -122,6 +129,7 @@ class RunConfig:
     sampler: SamplerOptions
     catalog: Mapping[str, Any] = field(default_factory=dict)
     source: str = "<config>"
+    measurements: Mapping[str, Measurement] = field(default_factory=dict)
 
     @property
     def sampled(self) -> list[str]:
@@ -133,12 +141,15 @@ class RunConfig:
         m = {k: v for k, v in self.model.__dict__.items() if v is not None}
         if self.model.growth_time_max is not None:
             m["growth_time_max"] = f"{self.model.growth_time_max:.17g} yr"
-        return {
+        out = {
             "model": m,
             "catalog": dict(self.catalog),
             "priors": {n: self.priors[n].to_config() for n in PARAMETERS if n in self.priors},
             "sampler": dict(self.sampler.__dict__),
         }
+        if self.measurements:
+            out["measurements"] = {k: v.to_config() for k, v in self.measurements.items()}
+        return out
 
     def to_toml(self) -> str:
         import tomli_w
@@ -237,10 +248,10 @@ def parse_config(data: Mapping[str, Any], *, source: str = "<config>") -> RunCon
     """Validate config data (as from :func:`tomllib.loads`)."""
     if not isinstance(data, Mapping):
         raise ConfigError("the config must be a TOML document of tables")
-    unknown = set(data) - {"model", "priors", "sampler", "catalog"}
+    unknown = set(data) - {"model", "priors", "sampler", "catalog", "measurements"}
     if unknown:
         raise ConfigError(f"unknown table(s) {', '.join(sorted(map(str, unknown)))}; "
-                          f"use [model], [catalog], [priors], [sampler]")
+                          f"use [model], [catalog], [priors], [measurements], [sampler]")
     model = _parse_model(_table(data, "model"))
     catalog = _parse_catalog(_table(data, "catalog"))
     priors = _parse_priors(_table(data, "priors"), model)
@@ -261,7 +272,9 @@ def parse_config(data: Mapping[str, Any], *, source: str = "<config>") -> RunCon
         else:
             kw[k] = _float(f"sampler.{k}", v)
     s = replace(s, **kw)
-    cfg = RunConfig(model=model, priors=priors, sampler=s, catalog=catalog, source=source)
+    measurements = parse_measurements(_table(data, "measurements"))
+    cfg = RunConfig(model=model, priors=priors, sampler=s, catalog=catalog, source=source,
+                    measurements=measurements)
     _check_sampler(s, len(cfg.sampled))
     return cfg
 
@@ -299,6 +312,8 @@ def _parse_model(tab: dict[str, Any]) -> ModelOptions:
             kw[k] = _choice(where, v, ("square", "disk"))
         elif k == "growth_constraint":
             kw[k] = _choice(where, v, ("soft", "hard"))
+        elif k == "selection":
+            kw[k] = _choice(where, v, SELECTION_MODES)
         elif k in ("use_spacings", "use_masses"):
             kw[k] = _bool(where, v)
         elif k in ("mu_gas", "growth_width_dex"):

@@ -280,7 +280,10 @@ def _input_blocks(config, model, region, diag, post) -> list[Block]:
                         f" (spacings {'used' if o.use_spacings else 'not used'}, masses "
                         f"{'used' if o.use_masses else 'not used'})")
                      + (f"; growth time below {o.growth_time_max:.3g} yr ({o.growth_constraint})"
-                        if o.growth_time_max is not None else "") + ".")]
+                        if o.growth_time_max is not None else "") + "."),
+               Block("li", f"Selection: {model.selection_text()}."),
+               Block("li", "Measurements used as data (one likelihood term each): "
+                     + ("; ".join(m.describe() for m in model.measurements) or "none") + ".")]
     blocks.append(Block("h2", "Priors"))
     from ..inference.priors import PARAMETERS
 

@@ -127,6 +127,8 @@ def finish_outputs(out: Path, model: Model, sample: SampleResult, *, region, con
         "fragment_mass_convention": ("Sigma * lambda_m^2" if config.model.fragment_shape == "square"
                                      else "Sigma * pi * (lambda_m / 2)^2"),
         "spacing": config.model.spacing,
+        "selection": model.selection_text(),
+        "measurements": "; ".join(m.describe() for m in model.measurements) or "none",
         "converged": bool(sample.converged),
         "intervals": "central posterior quantiles: p16-p84 (68%), p02_5-p97_5 (95%)",
     }
