@@ -36,6 +36,7 @@ from ..errors import InferError
 from ..physics.microphysics import diffusivities
 from ..physics.predict import Forward, forward
 from ..physics.sheet import field_from_mass_to_flux
+from ..quantities import DERIVED_NAMES, QUANTITIES
 from .config import ModelOptions, RunConfig
 from .likelihood import count_term, growth_term, observation_terms
 from .measurements import Measurement
@@ -46,19 +47,7 @@ __all__ = ["Observations", "Model", "build_model", "DERIVED_UNITS"]
 _NONE = -np.inf            # ln of an absent threshold
 
 #: derived quantity -> unit string used in the summary tables
-DERIVED_UNITS: dict[str, str] = {
-    "field": "mG",
-    "eta_ad": "cm2 / s",
-    "eta_ohm": "cm2 / s",
-    "eta_total": "cm2 / s",
-    "ionization": "",
-    "tau_ni": "yr",
-    "wavelength": "au",
-    "growth_time": "yr",
-    "fragment_mass": "jupiterMass",
-    "toomre_q": "",
-    "thermal_wavelength": "au",
-}
+DERIVED_UNITS: dict[str, str] = {k: QUANTITIES[k].unit for k in DERIVED_NAMES}
 
 
 @dataclass(frozen=True)
