@@ -1,7 +1,7 @@
 """The likelihood as it was before selection effects and radial profiles (a frozen copy).
 
 Verbatim arithmetic of ``Model._pointwise``, ``Model._growth_term`` and
-``Model.log_likelihood`` of the commit before the second wave (physics note, section 7),
+``Model.log_likelihood`` of the commit before the second wave (docs/physics.md, "Likelihood"),
 kept so that the tests can show that ``selection = "off"`` reproduces it value for value.
 """
 

@@ -57,7 +57,7 @@ TARGET_LABELS: dict[str, str] = {
     "eta_ohm": "eta_Ohm [cm2/s]",
     "eta_total": "eta_AD + eta_Ohm [cm2/s]",
     "field": "field [mG]",
-    "wavelength": "fastest wavelength [au]",
+    "wavelength": "fastest-growing wavelength [au]",
     "temperature": "temperature [K]",
     "surface_density": "surface density [g/cm2]",
 }
@@ -70,7 +70,7 @@ SHORT_NAMES: dict[str, str] = {
     "eta_ohm": "Ohmic diffusivity",
     "eta_total": "total diffusivity",
     "field": "field strength",
-    "wavelength": "fastest wavelength",
+    "wavelength": "fastest-growing wavelength",
     "temperature": "temperature",
     "surface_density": "surface density",
 }

@@ -1,4 +1,4 @@
-"""The terms of the log-likelihood (physics note, section 7), on plain arrays.
+"""The terms of the log-likelihood (docs/physics.md, "Likelihood"), on plain arrays.
 
 Each observation k of a kind (spacings, masses) has a model centre c_nk for sample n
 (f_lambda lambda_m, or f_M M_frag, at the observation's radius), an intrinsic scatter

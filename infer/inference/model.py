@@ -6,7 +6,7 @@ whose ``__call__`` evaluates the log-posterior of a whole ensemble at once
 (emcee ``vectorize=True``): an array (n_walkers, n_dim) in, an array
 (n_walkers,) out, finite or -inf, never NaN.
 
-Likelihood (physics note, section 7)::
+Likelihood (docs/physics.md, "Likelihood")::
 
     ln s_e ~ Normal(ln(f_lambda lambda_m), sigma_lambda^2 + (ds_e / s_e)^2)
     ln m_j ~ Normal(ln(f_M M_frag),       sigma_M^2      + (dm_j / m_j)^2)
@@ -36,6 +36,7 @@ from ..errors import InferError
 from ..physics.microphysics import diffusivities
 from ..physics.predict import Forward, forward
 from ..physics.sheet import field_from_mass_to_flux
+from ..quantities import DERIVED_NAMES, QUANTITIES
 from .config import ModelOptions, RunConfig
 from .likelihood import count_term, growth_term, observation_terms
 from .measurements import Measurement
@@ -47,19 +48,7 @@ __all__ = ["Observations", "Model", "build_model", "DERIVED_UNITS"]
 _NONE = -np.inf            # ln of an absent threshold
 
 #: derived quantity -> unit string used in the summary tables
-DERIVED_UNITS: dict[str, str] = {
-    "field": "mG",
-    "eta_ad": "cm2 / s",
-    "eta_ohm": "cm2 / s",
-    "eta_total": "cm2 / s",
-    "ionization": "",
-    "tau_ni": "yr",
-    "wavelength": "au",
-    "growth_time": "yr",
-    "fragment_mass": "jupiterMass",
-    "toomre_q": "",
-    "thermal_wavelength": "au",
-}
+DERIVED_UNITS: dict[str, str] = {k: QUANTITIES[k].unit for k in DERIVED_NAMES}
 
 
 @dataclass(frozen=True)

@@ -13,7 +13,7 @@ so for ln x ~ Normal(mu, sd^2) truncated below ln c each term gains
 
 When the searched area A of the sheet is known, the number of detected clumps is a Poisson
 variable with mean N_exp = (A / lambda_m^2) P_det: one fragment per wavelength-square (the
-fragment-mass convention of the physics note, section 5) times the probability that a
+fragment-mass convention of docs/physics.md, "Predicted observables") times the probability that a
 fragment is detected. P_det is taken as the product of the probability of being above the
 mass limit and that of being separated from its neighbour by more than the beam (the
 neighbour's distance drawn from the spacing distribution), an approximation that treats the

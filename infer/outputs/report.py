@@ -284,7 +284,7 @@ def _input_blocks(config, model, region, diag, post) -> list[Block]:
                Block("li", _profile_text(model)),
                Block("li", "Spacings: " + ("minimum-spanning-tree edges" if o.spacing == "mst"
                                            else "nearest-neighbour distances")
-                     + " of the deprojected positions, compared with the fastest wavelength."),
+                     + " of the deprojected positions, compared with the fastest-growing wavelength."),
                Block("li", "Fragment mass: " + ("Sigma lambda_m^2 (one wavelength squared)"
                                                 if o.fragment_shape == "square"
                                                 else "Sigma pi (lambda_m / 2)^2 (circular patch)")
