@@ -14,7 +14,19 @@ from infer.cli import main
 from infer.errors import CatalogError
 
 DEMO = Path(__file__).resolve().parent.parent / "catalogs"
-DISK = DEMO / "demo_disk.ecsv"
+DEMO_DISK = DEMO / "demo_disk.ecsv"
+
+
+@pytest.fixture(scope="module")
+def disk(tmp_path_factory) -> Path:
+    """The demo disk without its own beam and limit, so each test states the selection it sets."""
+    lines = DEMO_DISK.read_text().splitlines(keepends=True)
+    keep = [ln for ln in lines
+            if not ln.startswith(("# - {beam_", "# - {mass_limit", "# - {flux_limit"))]
+    assert len(lines) - len(keep) == 4          # beam_major, beam_minor, beam_pa, mass_limit
+    path = tmp_path_factory.mktemp("catalog") / "disk_unobserved.ecsv"
+    path.write_text("".join(keep))
+    return path
 
 
 def _check(capsys, *argv):
@@ -30,10 +42,10 @@ def _config(tmp_path, catalog_lines: str) -> Path:
     return p
 
 
-def test_check_reports_beam_limit_and_area(capsys, tmp_path):
+def test_check_reports_beam_limit_and_area(capsys, tmp_path, disk):
     cfg = _config(tmp_path, 'beam_major = "0.3 arcsec"\nbeam_minor = "0.2 arcsec"\n'
                             'beam_pa = "30 deg"\nmass_limit = "30 jupiterMass"\narea = "4 arcsec2"')
-    rc, out, err = _check(capsys, DISK, "--json", "--config", cfg)
+    rc, out, err = _check(capsys, disk, "--json", "--config", cfg)
     assert rc == 0, err
     d = json.loads(out)
     assert d["beam"] == {"major_arcsec": 0.3, "minor_arcsec": 0.2, "pa_deg": 30.0}
@@ -49,7 +61,7 @@ def test_check_reports_beam_limit_and_area(capsys, tmp_path):
     assert d["area_au2"] == pytest.approx(4 * 230**2 / np.cos(np.radians(38)), rel=1e-9)
     assert any("shorter than the beam" in w and "beam_major" in w for w in d["warnings"])
     assert any("detection limit" in w and "mass_limit" in w for w in d["warnings"])
-    rc, out, _ = _check(capsys, DISK, "--config", cfg)
+    rc, out, _ = _check(capsys, disk, "--config", cfg)
     assert rc == 0 and "beam" in out and "detection limit" in out and "searched area" in out
 
 
@@ -79,19 +91,19 @@ def test_flux_limit_becomes_a_mass_limit_with_the_dust_settings():
     ('flux_limit = "1 mJy"', "flux_limit"),                         # mass catalog: no dust settings
     ('area = "3 km"', "area"),
 ])
-def test_bad_selection_metadata_exit_2_naming_the_key(capsys, tmp_path, catalog, needle):
+def test_bad_selection_metadata_exit_2_naming_the_key(capsys, tmp_path, catalog, needle, disk):
     cfg = _config(tmp_path, catalog)
-    rc, out, err = _check(capsys, DISK, "--config", cfg)
+    rc, out, err = _check(capsys, disk, "--config", cfg)
     assert rc == 2 and out == "" and len(err.strip().splitlines()) == 1
     assert needle in err and "Traceback" not in err
     # the fit refuses the same before it writes anything
     out_dir = tmp_path / "fit"
-    rc = main(["fit", str(DISK), "--config", str(cfg), "--out", str(out_dir)])
+    rc = main(["fit", str(disk), "--config", str(cfg), "--out", str(out_dir)])
     assert rc == 2 and not out_dir.exists()
 
 
-def test_region_carries_the_limits():
-    [r] = read_catalog(DISK, overrides={"beam_major": "0.1 arcsec", "mass_limit": "10 jupiterMass"})
+def test_region_carries_the_limits(disk):
+    [r] = read_catalog(disk, overrides={"beam_major": "0.1 arcsec", "mass_limit": "10 jupiterMass"})
     assert r.spacing_min.shape == r.spacings.shape
     assert np.all(r.spacing_min < r.spacings)
     assert r.mass_limit.to_value(u.M_jup) == pytest.approx(10)

@@ -3,7 +3,7 @@
     X(r) = X_0 (r / r_0)^-index          (surface density, temperature, mass-to-flux, x_e)
 
 The epicyclic frequency at r is Keplerian from the stellar mass, kappa = Omega =
-sqrt(G M_star / r^3) (physics note, section 2), computed where the conditions are mapped to
+sqrt(G M_star / r^3) (docs/physics.md, "Inputs"), computed where the conditions are mapped to
 the kernel (:meth:`infer.inference.model.Model.physical`).
 """
 
