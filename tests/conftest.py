@@ -1,6 +1,6 @@
-"""Shared fixtures: a run configuration like the architecture's example, small observations,
-the ``infer`` command run in-process or as a real process, and one small fit shared by the
-tests that only read a fit folder."""
+"""Shared fixtures: an example run configuration (the form of catalogs/demo_disk.toml), small
+observations, the ``infer`` command run in-process or as a real process, and one small fit shared
+by the tests that only read a fit folder."""
 
 from __future__ import annotations
 

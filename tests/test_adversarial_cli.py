@@ -1,6 +1,6 @@
 """Every command with garbage input: exit code 2, one line on stderr, no traceback, no output.
 
-The contract (architecture, "Command line"): a user error -- a bad option value,
+The contract (README, "Stable names: commands, JSON keys, files"): a user error -- a bad option value,
 a missing required option, a nonexistent path, a folder instead of a file, a
 binary file named .ecsv, an empty file, NaN or infinite cells, a refused
 overwrite -- exits with code 2 and exactly one line on stderr naming the

@@ -10,7 +10,7 @@ import pytest
 
 from infer import predict
 
-# keys fixed by architecture.md ("--json prints one JSON object with at least these keys")
+# the stable JSON keys listed in the README ("Stable names"): at least these are always present
 REQUIRED_KEYS = {"unstable", "wavelength_au", "growth_time_yr", "fragment_mass_mjup",
                  "mass_to_flux", "toomre_q", "field_mG", "eta_ad_cm2_s", "eta_ohm_cm2_s",
                  "thermal_wavelength_au", "thermal_mass_mjup"}
@@ -35,6 +35,25 @@ def test_json_has_the_contract_keys_and_matches_the_api(cli):
     assert data["mass_to_flux"] == pytest.approx(1.6, rel=1e-14)
     for key in REQUIRED_KEYS - {"unstable"}:
         assert isinstance(data[key], float), key
+
+
+def test_critical_toomre_q_key_and_its_former_name(cli):
+    # toomre_q_critical_magnetic is the flux-frozen critical Q, (1 - mu0^-2) /
+    # sqrt((C_eff^2 + v_A^2) / c_s^2) (derived in docs/physics.md, "Flux freezing"); the
+    # README promises the former key q_crit_mag for one release, with the same value.
+    code, out, _ = cli(["predict", *DISK, "--json"])
+    assert code == 0
+    data = json.loads(out)
+    ref = predict(surface_density=60 * u.g / u.cm**2, temperature=35 * u.K, mass_to_flux=1.6,
+                  ionization=1e-10, stellar_mass=0.5 * u.M_sun, radius=80 * u.au)
+    expected = ref.toomre_q_critical_magnetic.value
+    assert data["toomre_q_critical_magnetic"] == pytest.approx(expected, rel=1e-12)
+    assert data["q_crit_mag"] == data["toomre_q_critical_magnetic"]
+    # P_ext = 0: C_eff = c_s and v_A^2 / c_s^2 = 2 / mu0^2 (docs/physics.md, "Dimensionless form")
+    assert expected == pytest.approx((1 - 1.6**-2) / np.sqrt(1 + 2 / 1.6**2), rel=1e-12)
+    # the text output names it too
+    code, text, _ = cli(["predict", *DISK])
+    assert code == 0 and "critical Q, field support" in text
 
 
 def test_json_uses_null_where_undefined(cli):
@@ -107,8 +126,9 @@ def test_python_dash_m_exit_code_and_message(cli):
 
 
 def test_json_matches_thermal_reference(cli):
-    # checks.md worked value through the command line: N(H2) = 1e22 cm^-2, 10 K ->
-    # lambda_m = 0.0734 pc (Larson 1985, MNRAS 214, 379; from memory)
+    # worked value of docs/checks.md ("Thin sheet and disk") through the command line:
+    # N(H2) = 1e22 cm^-2, 10 K -> lambda_m = 0.0734 pc (computed there from the
+    # thin-sheet relation of Larson 1985, MNRAS 214, 379; citation from memory)
     code, out, _ = cli(["predict", "--column-density", "1e22 cm-2", "--temperature", "10 K",
                         "--json"])
     assert code == 0

@@ -16,7 +16,7 @@ import pytest
 from infer import InferError, predict
 from infer.physics.spectrum import growth_spectrum, write_spectrum
 
-M_H = 1.00784 * u.u          # standard atomic weight of H (IUPAC), physics.md convention
+M_H = 1.00784 * u.u          # standard atomic weight of H (IUPAC), docs/physics.md "Inputs"
 DISK = ["--surface-density", "60 g/cm2", "--temperature", "35 K", "--mass-to-flux", "1.6",
         "--ionization", "1e-10", "--stellar-mass", "0.5 solMass", "--radius", "80 au"]
 ROTATING = ["--surface-density", "50 g/cm2", "--temperature", "30 K", "--kappa", "2e-10 1/s"]
@@ -58,8 +58,9 @@ def test_csv_matches_rotating_disk_dispersion_relation(cli, tmp_path):
 
 
 def test_csv_magnetized_diffusive_against_numpy_roots(cli, tmp_path):
-    # physics.md sec. 3 cubic, written out dimensionally with astropy constants and solved
-    # with numpy.roots (reference library) at each wavelength of the file.
+    # the cubic of docs/physics.md ("Dispersion relation"), written out dimensionally with
+    # astropy constants and solved with numpy.roots (reference library) at each wavelength
+    # of the file.
     out = tmp_path / "disk.csv"
     code, _, _ = cli(["spectrum", *DISK, "--out", str(out)])
     assert code == 0

@@ -82,6 +82,8 @@ def test_no_preference_when_models_predict_the_same():
 
 def test_small_difference_is_not_overstated():
     # a consistent but small gain: |delta| = 3 with a tiny SE is still "no meaningful preference"
+    # (|elpd difference| < 4 is small: Sivula, Magnusson, Matamoros & Vehtari, arXiv:2008.10296;
+    # the further "more than 2 standard errors" rule is common practice)
     base = dict(p_loo=1.0, pareto_k=np.zeros(30), p_loo_i=np.zeros(30), n_samples=100)
     a = LooResult(elpd=-30.0 + 3.0, se=1.0, elpd_i=np.full(30, -0.9), **base)
     b = LooResult(elpd=-30.0, se=1.0, elpd_i=np.full(30, -1.0) + 1e-3 * np.arange(30) % 2, **base)
@@ -92,6 +94,8 @@ def test_small_difference_is_not_overstated():
 
 
 def test_high_pareto_k_is_reported():
+    # k > 0.7: the importance-sampling estimate is unreliable (Vehtari, Gelman & Gabry 2017,
+    # Stat. Comput. 27, 1413; Vehtari, Simpson, Gelman, Yao & Gabry 2024, JMLR 25(72), 1)
     k = np.array([0.1, 0.75, 0.2, 1.3])
     base = dict(p_loo=1.0, p_loo_i=np.zeros(4), n_samples=100, labels=("a", "b", "c", "d"))
     a = LooResult(elpd=-4.0, se=1.0, elpd_i=-np.ones(4), pareto_k=k, **base)

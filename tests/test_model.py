@@ -1,4 +1,4 @@
-"""The likelihood of physics note section 7, vectorization, and the never-NaN guarantee."""
+"""The likelihood of docs/physics.md ("Likelihood"), vectorization, and the never-NaN guarantee."""
 
 from __future__ import annotations
 

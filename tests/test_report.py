@@ -2,7 +2,7 @@
 
 The growth-rate band is checked against the closed-form flux-frozen growth
 rate of the thin sheet, gamma^2 = 2 pi G Sigma k (1 - mu0^-2) - kappa^2 -
-(c_s^2 + v_A^2) k^2 (physics note, section 3; the non-magnetic limit is the
+(c_s^2 + v_A^2) k^2 (docs/physics.md, "Flux freezing"; the non-magnetic limit is the
 rotating-disk relation of Toomre 1964, ApJ 139, 1217), with constants from
 astropy.constants.
 """
@@ -17,7 +17,7 @@ import astropy.constants as const
 import astropy.units as u
 import numpy as np
 import pytest
-from conftest import BASE_CONFIG  # noqa: E402  (the architecture's example config)
+from conftest import BASE_CONFIG  # noqa: E402  (the shared example config)
 
 from infer.cli import main
 
