@@ -40,6 +40,8 @@ _LAZY: dict[str, str] = {
     "predictive_figure": "infer.outputs.figures",
     "spectrum_band": "infer.outputs.band",
     "band_figure": "infer.outputs.band",
+    "radial_band": "infer.outputs.radial",
+    "radial_figure": "infer.outputs.radial",
     "build_report": "infer.outputs.report",
     "write_report": "infer.outputs.report",
     "run_survey": "infer.pipeline.survey",
