@@ -24,17 +24,14 @@ import astropy.units as u
 import numpy as np
 
 from ..errors import ConfigError
+from ..quantities import QUANTITIES
 from ..units import parse_quantity
 
 __all__ = ["Measurement", "MEASURED_UNITS", "measurement_loglike", "parse_measurements"]
 
-#: measurable quantity -> canonical unit (that of its summary row)
-MEASURED_UNITS: dict[str, str] = {
-    "field": "mG",
-    "mass_to_flux": "",
-    "surface_density": "g / cm2",
-    "temperature": "K",
-}
+#: measurable quantity -> canonical unit (that of its summary row, from the registry)
+MEASURED_UNITS: dict[str, str] = {name: QUANTITIES[name].unit for name in
+                                  ("field", "mass_to_flux", "surface_density", "temperature")}
 
 _LN10 = np.log(10.0)
 _HALF_LN2PI = 0.5 * np.log(2.0 * np.pi)
