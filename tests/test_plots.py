@@ -23,6 +23,7 @@ from infer.inference.config import parse_config
 from infer.inference.model import Observations, build_model
 from infer.inference.posterior import Posterior
 from infer.outputs import figures as plots
+from infer.outputs.fitfolder import LoadedFit
 
 LN10 = np.log(10.0)
 
@@ -233,11 +234,11 @@ def test_infer_plot_writes_the_four_figures(tmp_path, monkeypatch, capsys):
     tau = np.ones(model.ndim)
     calls = []
 
-    def fake_load_fit(out_dir):
-        calls.append(str(out_dir))
-        return None, model, region, chain, tau
+    def fake_load(folder):
+        calls.append(str(folder.path))
+        return LoadedFit(None, model, region, chain, tau)
 
-    monkeypatch.setattr("infer.pipeline.fit.load_fit", fake_load_fit)
+    monkeypatch.setattr("infer.outputs.fitfolder.FitFolder.load", fake_load)
     (tmp_path / "chain.h5").write_bytes(b"placeholder")
     assert main(["plot", str(tmp_path)]) == 0
     assert calls == [str(tmp_path)]
@@ -259,8 +260,8 @@ def test_infer_plot_writes_the_four_figures(tmp_path, monkeypatch, capsys):
 def test_infer_plot_format_option_reaches_the_writer(tmp_path, monkeypatch, capsys):
     model = build_model(_config("ideal", scatter=0.2, use_masses=False), _observations())
     chain = _fake_chain(model, _prior_theta(model, n=160))
-    monkeypatch.setattr("infer.pipeline.fit.load_fit", lambda d: (None, model, "r", chain,
-                                                             np.ones(model.ndim)))
+    monkeypatch.setattr("infer.outputs.fitfolder.FitFolder.load",
+                        lambda folder: LoadedFit(None, model, "r", chain, np.ones(model.ndim)))
     seen = {}
 
     def fake_write(out_dir, *, post, model, region, formats):

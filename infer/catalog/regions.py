@@ -27,7 +27,7 @@ silently: the only exclusions are the ids listed in the run config's
 
 from __future__ import annotations
 
-from collections.abc import Mapping
+from collections.abc import Mapping, Sequence
 from dataclasses import dataclass
 from pathlib import Path
 from typing import Any
@@ -37,7 +37,7 @@ import numpy as np
 from astropy.coordinates import SkyCoord
 from scipy.spatial import cKDTree
 
-from ..errors import CatalogError
+from ..errors import CatalogError, InferError
 from . import geometry
 from .columns import Cells, column_layout, column_values, is_kind
 from .dustmass import dust_mass
@@ -47,7 +47,7 @@ from .metadata import OVERRIDE_KEYS, dust_settings, resolve_metadata
 from .read import read_table
 from .summary import summarize
 
-__all__ = ["Region", "read_catalog", "check_catalog", "summarize", "OVERRIDE_KEYS",
+__all__ = ["Region", "read_catalog", "check_catalog", "select_region", "summarize", "OVERRIDE_KEYS",
            "SPACING_METHODS", "COLUMNS"]
 
 #: the columns the reader uses
@@ -398,3 +398,23 @@ def check_catalog(path: str | Path, *, overrides: Mapping[str, Any] | None = Non
     """
     return summarize(read_catalog(path, overrides=overrides, spacing=spacing))
 
+
+def select_region(regions: Sequence[Region], name: str | None) -> Region:
+    """The region to fit: the only one, or the one named ``name``.
+
+    Raises
+    ------
+    InferError
+        Several regions and no name (pick one with ``--region``), or no region of that name.
+    """
+    if name is None:
+        if len(regions) > 1:
+            names = ", ".join(r.name for r in regions)
+            raise InferError(f"the catalog holds {len(regions)} regions ({names}); pick one with "
+                             f"--region NAME, or fit them all with `infer survey`")
+        return regions[0]
+    for r in regions:
+        if r.name == name:
+            return r
+    raise InferError(f"--region {name}: no such region; the catalog has "
+                     f"{', '.join(r.name for r in regions)}")

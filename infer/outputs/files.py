@@ -1,4 +1,8 @@
-"""Writing into output folders safely: atomic files, refusing to clobber another run."""
+"""Writing files safely: atomic replacement (a temporary file in the same folder, then rename).
+
+The layout of a fit folder, and the guard that refuses to mix runs in one, live in
+:mod:`infer.outputs.fitfolder`.
+"""
 
 from __future__ import annotations
 
@@ -10,13 +14,9 @@ from collections.abc import Mapping
 from pathlib import Path
 from typing import Any
 
-from ..errors import ChainError, InferError
+from ..errors import InferError
 
-__all__ = ["atomic_write_text", "atomic_write_bytes", "jsonable", "write_json", "prepare_out_dir",
-           "RUN_FILE"]
-
-#: small JSON file identifying the run a folder holds (catalog + config hash)
-RUN_FILE = "run.json"
+__all__ = ["atomic_write_text", "atomic_write_bytes", "jsonable", "write_json"]
 
 
 def atomic_write_bytes(path: str | Path, data: bytes) -> None:
@@ -74,50 +74,3 @@ def jsonable(obj: Any) -> Any:
 
 def write_json(path: str | Path, data: Mapping) -> None:
     atomic_write_text(path, json.dumps(jsonable(data), indent=2, allow_nan=False) + "\n")
-
-
-def prepare_out_dir(out_dir: str | Path, *, run_hash: str, resume: bool) -> bool:
-    """Check that ``out_dir`` may receive this run; create it if needed.
-
-    Returns True when the folder was created (so a failed fit may remove it).
-
-    Raises
-    ------
-    ChainError
-        The folder holds another run, holds other files, or the user asked to
-        resume a run that is not there.
-    """
-    out = Path(out_dir)
-    if out.exists() and not out.is_dir():
-        raise InferError(f"--out {out}: exists and is not a folder")
-    if not out.exists():
-        if resume:
-            raise ChainError(f"--out {out}: nothing to resume (the folder does not exist); "
-                             f"run without --resume")
-        try:
-            out.mkdir(parents=True)
-        except OSError as exc:
-            raise InferError(f"--out {out}: cannot create the folder ({exc.strerror})") from None
-        return True
-    entries = [p for p in out.iterdir() if not p.name.startswith(".")]
-    if not entries:
-        if resume:
-            raise ChainError(f"--out {out}: nothing to resume (the folder is empty)")
-        return False
-    run_file = out / RUN_FILE
-    if not run_file.exists():
-        raise ChainError(f"--out {out}: the folder is not empty and holds no fit of this package; "
-                         f"choose a new or empty folder")
-    try:
-        held = json.loads(run_file.read_text()).get("run_hash")
-    except (OSError, ValueError, AttributeError):
-        raise ChainError(f"--out {out}: {RUN_FILE} is unreadable; choose a new folder") from None
-    if held != run_hash:
-        raise ChainError(f"--out {out}: the folder holds a different run (other catalog, config or "
-                         f"seed); choose another --out folder")
-    if not resume and (out / "chain.h5").exists():
-        raise ChainError(f"--out {out}: the folder already holds this run; add --resume to "
-                         f"continue it, or choose another --out folder")
-    if not os.access(out, os.W_OK):
-        raise InferError(f"--out {out}: the folder is not writable")
-    return False

@@ -16,7 +16,6 @@ measurement forecasts.
 from __future__ import annotations
 
 import io
-import json
 import textwrap
 from collections.abc import Sequence
 from dataclasses import dataclass
@@ -29,14 +28,10 @@ from ..inference.forecast import ForecastResult, forecast
 from ..inference.model import Model
 from ..inference.posterior import Posterior, ln_width
 from .band import SpectrumBand, band_figure, spectrum_band
+from .fitfolder import BAND_FILE, REPORT_FILES, FitFolder
 
 __all__ = ["Block", "Report", "build_report", "write_report", "render_markdown", "render_pages",
            "width_ratios", "REPORT_FILES", "BAND_FILE"]
-
-#: files :func:`write_report` writes into the fit folder
-REPORT_FILES = ("report.pdf", "report.md")
-#: the growth-rate band figure, referenced by report.md
-BAND_FILE = "spectrum_band.png"
 
 _PAGE = (8.27, 11.69)       # A4, inches
 _MIN_SAMPLES = 50
@@ -362,14 +357,11 @@ def _table_block(table, ratios) -> Block:
 
 
 # ------------------------------------------------------------------ build
-def _diagnostics(fit_dir: Path, chain) -> dict:
+def _diagnostics(folder: FitFolder, chain) -> dict:
     try:
-        d = json.loads((fit_dir / "diagnostics.json").read_text())
-        if isinstance(d, dict):
-            return d
-    except (OSError, ValueError):
-        pass
-    return {"steps": int(chain.iteration), "walkers": int(chain.chain.shape[1])}
+        return folder.diagnostics()
+    except ChainError:
+        return {"steps": int(chain.iteration), "walkers": int(chain.chain.shape[1])}
 
 
 def build_report(fit_dir: str | Path, *, forecasts: Sequence[tuple[str, float]] = (),
@@ -394,16 +386,17 @@ def build_report(fit_dir: str | Path, *, forecasts: Sequence[tuple[str, float]] 
         If the folder, its config or its chain is missing or corrupted, or
         holds too few samples.
     """
-    from ..inference.posterior import identifiability_notes, posterior_from_chain, summary_table
-    from ..pipeline.fit import load_fit
+    from ..inference.posterior import identifiability_notes, summary_table
 
-    out = Path(fit_dir)
-    config, model, region, chain, tau = load_fit(out)
-    post = posterior_from_chain(model, chain, tau)
+    folder = FitFolder(Path(fit_dir))
+    out = folder.path
+    fit = folder.load()
+    config, model, region, chain = fit.config, fit.model, fit.region, fit.chain
+    post = fit.posterior()
     if post.n < _MIN_SAMPLES:
         raise ChainError(f"{out}: only {post.n} usable posterior samples; continue the fit with "
                          f"`infer fit ... --resume --max-steps N` before reporting")
-    diag = _diagnostics(out, chain)
+    diag = _diagnostics(folder, chain)
     table = summary_table(post, model)
     notes = identifiability_notes(post, model)
     ratios = width_ratios(post, model, seed=seed)
@@ -428,9 +421,12 @@ def build_report(fit_dir: str | Path, *, forecasts: Sequence[tuple[str, float]] 
     if notes:
         blocks.append(Block("h2", "Identifiability notes"))
         blocks += [Block("li", nt) for nt in notes]
-    blocks += [Block("break"), Block("image", "corner.png", "Corner plot of the posterior."),
-               Block("image", "predictive.png", "Posterior predictive check of spacings and masses."),
-               *([Block("image", "radial.png",
+    png = {stem: folder.figure(stem, "png").name
+           for stem in folder.figure_stems(radial=model.plan is not None)}
+    blocks += [Block("break"), Block("image", png["corner"], "Corner plot of the posterior."),
+               Block("image", png["predictive"],
+                     "Posterior predictive check of spacings and masses."),
+               *([Block("image", png["radial"],
                         "Fastest wavelength and fragment mass against radius (power-law profile): "
                         "posterior median, 68% and 95% bands, with the observed spacings at the "
                         "mean radius of their clumps and the masses at theirs.")]
@@ -453,8 +449,7 @@ def build_report(fit_dir: str | Path, *, forecasts: Sequence[tuple[str, float]] 
         blocks.append(Block("li", f"Effective sample size of the weights: median "
                                   f"{f.ess_median:.0f} of {f.n_samples}."))
         blocks += [Block("li", f"WARNING: {w}") for w in f.warnings]
-    figs = ("corner.png", "predictive.png") + (("radial.png",) if model.plan is not None else ())
-    missing = tuple(n for n in figs if not (out / n).is_file())
+    missing = tuple(n for n in png.values() if not (out / n).is_file())
     return Report(out, title, blocks, paragraph, fcs, band, table, notes, ratios, post, model,
                   region, missing)
 
@@ -623,9 +618,11 @@ def write_report(report: Report) -> list[Path]:
 
         written += write_figures(out, post=report.post, model=report.model, region=report.region)
     pdf = _render_pdf(report)
-    atomic_write_bytes(out / BAND_FILE, png.getvalue())
-    written.append(out / BAND_FILE)
-    atomic_write_bytes(out / "report.pdf", pdf)
-    atomic_write_text(out / "report.md", md)
-    written += [out / "report.pdf", out / "report.md"]
+    folder = FitFolder(out)
+    pdf_file, md_file = folder.report_files
+    atomic_write_bytes(folder.band_file, png.getvalue())
+    written.append(folder.band_file)
+    atomic_write_bytes(pdf_file, pdf)
+    atomic_write_text(md_file, md)
+    written += [pdf_file, md_file]
     return written

@@ -41,7 +41,6 @@ from __future__ import annotations
 
 import hashlib
 import io
-import json
 import os
 import re
 import shutil
@@ -53,13 +52,16 @@ from dataclasses import dataclass, replace
 from pathlib import Path
 from typing import Any
 
+import astropy.units as u
 import numpy as np
 from astropy.table import Table
 
 from ..errors import ChainError, InferError
 from ..inference.config import RunConfig, load_config
 from ..inference.priors import PARAMETERS, Prior, parse_prior
-from ..outputs.files import RUN_FILE, atomic_write_bytes, atomic_write_text
+from ..outputs.files import atomic_write_bytes, atomic_write_text
+from ..outputs.fitfolder import SUMMARY_STATS, FitFolder
+from ..quantities import QUANTITIES
 from .fit import fit_region, run_hash
 
 __all__ = ["SurveyResult", "RegionEntry", "run_survey", "region_seed", "region_config", "folder_names",
@@ -362,29 +364,21 @@ def _finished(final: Path, rh: str, max_steps: int) -> bool | None:
     """
     if not final.exists():
         return None
-    try:
-        held = json.loads((final / RUN_FILE).read_text()).get("run_hash")
-    except (OSError, ValueError, AttributeError):
-        held = None
-    if held != rh:
+    folder = FitFolder(final)
+    if folder.held_run_hash() != rh:
         raise InferError(f"{final}: the folder exists and holds another run (other catalog, "
                          f"config or seed) or no fit; move it away or choose another --out")
     try:
-        diag = json.loads((final / "diagnostics.json").read_text())
-        complete = all((final / f).exists() for f in ("summary.ecsv", "chain.h5", "config.toml"))
-        return complete and (bool(diag["converged"]) or int(diag["steps"]) >= max_steps)
-    except (OSError, ValueError, KeyError, TypeError):
+        diag = folder.diagnostics()
+        return folder.is_complete() and (bool(diag["converged"]) or int(diag["steps"]) >= max_steps)
+    except (ChainError, KeyError, TypeError, ValueError):
         return False
 
 
 def _prepare_partial(partial: Path, final: Path, rh: str, redo: bool) -> bool:
     """Make the partial folder ready; True when it holds a chain to resume."""
     if partial.exists():
-        try:
-            held = json.loads((partial / RUN_FILE).read_text()).get("run_hash")
-        except (OSError, ValueError, AttributeError):
-            held = None
-        if held == rh and (partial / "chain.h5").exists():
+        if FitFolder(partial).held_run_hash() == rh and FitFolder(partial).has_chain():
             return True
         shutil.rmtree(partial)
     if redo:  # continue a finished folder's chain in a copy, swap when done
@@ -392,7 +386,7 @@ def _prepare_partial(partial: Path, final: Path, rh: str, redo: bool) -> bool:
         shutil.rmtree(tmp, ignore_errors=True)
         shutil.copytree(final, tmp)
         os.replace(tmp, partial)
-        return (partial / "chain.h5").exists()
+        return FitFolder(partial).has_chain()
     return False
 
 
@@ -439,22 +433,22 @@ def _fit_task(task: _Task) -> dict:
                            n_clumps=len(region))
 
 
-def _row_from_folder(folder: Path, *, skipped: bool) -> dict:
-    """The table row of a finished region folder (summary.ecsv, diagnostics.json, run.json)."""
+def _row_from_folder(path: Path, *, skipped: bool) -> dict:
+    """The table row of a finished region folder (its summary, diagnostics and run info)."""
+    folder = FitFolder(path)
     try:
-        summary = Table.read(folder / "summary.ecsv", format="ascii.ecsv")
-        diag = json.loads((folder / "diagnostics.json").read_text())
-        run = json.loads((folder / RUN_FILE).read_text())
-        stats = {}
-        for r in summary:
-            unit = "" if np.ma.is_masked(r["unit"]) else str(r["unit"])
-            stats[str(r["name"])] = {"unit": unit, **{k: float(r[k]) for k in _STATS}}
-        return {"region": str(run["region"]), "source": str(run["source"]),
+        summary = folder.summary()
+        diag = folder.diagnostics()
+        run = folder.run_info()
+        at = {k: SUMMARY_STATS.index(k) for k in _STATS}
+        stats = {name: {k: float(summary[name].value[i]) for k, i in at.items()}
+                 for name in summary.colnames if name != "stat"}
+        return {"region": run.region, "source": str(run.source),
                 "n_clumps": int(diag.get("n_clumps", 0)), "stats": stats,
                 "converged": bool(diag["converged"]), "steps": int(diag["steps"]), "error": "",
-                "folder": folder.name, "skipped": skipped}
+                "folder": path.name, "skipped": skipped}
     except (OSError, ValueError, KeyError, TypeError) as exc:
-        raise InferError(f"{folder}: the finished fit's summary is unreadable ({_one_line(exc)}); "
+        raise InferError(f"{path}: the finished fit's summary is unreadable ({_one_line(exc)}); "
                          f"delete the folder to fit the region again") from None
 
 
@@ -480,31 +474,20 @@ def survey_table(rows: Sequence[dict]) -> Table:
     value; NaN where a region has no such quantity or failed), then
     ``converged`` (bool), ``steps`` (chain length), ``error`` (empty when the
     fit succeeded) and ``folder`` (the region's sub-folder, empty on failure).
-    Each quantity's unit is the unit of its columns.
+    Each quantity's columns carry its unit from :mod:`infer.quantities`.
     """
-    import astropy.units as u
-
     names = _ordered_names(rows)
-    units = {}
-    for r in rows:
-        for n, s in r["stats"].items():
-            units.setdefault(n, s["unit"])
     t = Table()
     t["region"] = [str(r["region"]) for r in rows] or np.array([], dtype=str)
     t["source"] = [str(r["source"]) for r in rows] or np.array([], dtype=str)
     t["n_clumps"] = np.array([int(r["n_clumps"]) for r in rows], dtype=int)
     for n in names:
-        try:
-            unit = u.Unit(units[n]) if units[n] else None
-        except ValueError:
-            unit = None
+        unit = QUANTITIES[n].column_unit if n in QUANTITIES else None
         for k in _STATS:
             col = np.array([r["stats"].get(n, {}).get(k, np.nan) for r in rows], dtype=float)
             t[f"{n}_{k}"] = col
-            if unit is not None:
+            if unit is not None and unit != u.dimensionless_unscaled:
                 t[f"{n}_{k}"].unit = unit
-            elif units[n]:
-                t[f"{n}_{k}"].meta["unit"] = units[n]
     t["converged"] = np.array([bool(r["converged"]) for r in rows], dtype=bool)
     t["steps"] = np.array([int(r["steps"]) for r in rows], dtype=int)
     t["error"] = [str(r["error"]) for r in rows] or np.array([], dtype=str)
