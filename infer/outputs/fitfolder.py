@@ -148,48 +148,18 @@ class FitFolder:
         object.__setattr__(self, "path", Path(self.path))
 
     # ------------------------------------------------------------- paths ----
-    @property
-    def run_file(self) -> Path:
-        return self.path / RUN_FILE
-
-    @property
-    def config_file(self) -> Path:
-        return self.path / CONFIG_FILE
-
-    @property
-    def chain_file(self) -> Path:
-        return self.path / CHAIN_FILE
-
-    @property
-    def summary_file(self) -> Path:
-        """summary.ecsv (the machine-readable summary)."""
-        return self.path / SUMMARY_FILES[0]
-
-    @property
-    def summary_files(self) -> tuple[Path, Path, Path]:
-        """summary.ecsv, summary.md, summary.tex."""
-        return tuple(self.path / n for n in SUMMARY_FILES)  # type: ignore[return-value]
-
-    @property
-    def diagnostics_file(self) -> Path:
-        return self.path / DIAGNOSTICS_FILE
-
-    @property
-    def pointwise_file(self) -> Path:
-        return self.path / POINTWISE_FILE
-
-    @property
-    def band_file(self) -> Path:
-        return self.path / BAND_FILE
-
-    @property
-    def report_files(self) -> tuple[Path, Path]:
-        """report.pdf, report.md."""
-        return tuple(self.path / n for n in REPORT_FILES)  # type: ignore[return-value]
-
-    @property
-    def compare_file(self) -> Path:
-        return self.path / COMPARE_FILE
+    run_file = property(lambda self: self.path / RUN_FILE, doc="run.json")
+    config_file = property(lambda self: self.path / CONFIG_FILE, doc="config.toml")
+    chain_file = property(lambda self: self.path / CHAIN_FILE, doc="chain.h5")
+    summary_file = property(lambda self: self.path / SUMMARY_FILES[0], doc="summary.ecsv")
+    summary_files = property(lambda self: tuple(self.path / n for n in SUMMARY_FILES),
+                             doc="summary.ecsv, summary.md, summary.tex")
+    diagnostics_file = property(lambda self: self.path / DIAGNOSTICS_FILE, doc="diagnostics.json")
+    pointwise_file = property(lambda self: self.path / POINTWISE_FILE, doc="pointwise.npz")
+    band_file = property(lambda self: self.path / BAND_FILE, doc="spectrum_band.png")
+    report_files = property(lambda self: tuple(self.path / n for n in REPORT_FILES),
+                            doc="report.pdf, report.md")
+    compare_file = property(lambda self: self.path / COMPARE_FILE, doc="compare.md")
 
     def figure(self, stem: str, fmt: str = "png") -> Path:
         """The file of one figure, e.g. ``figure("corner", "pdf")``."""

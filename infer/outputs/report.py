@@ -604,14 +604,12 @@ def write_report(report: Report) -> list[Path]:
     list of Path
         The files written.
     """
-    from .files import atomic_write_bytes, atomic_write_text
+    from .files import atomic_write_bytes, atomic_write_text, render_figure
 
     out = report.fit_dir
     written: list[Path] = []
     # everything is rendered in memory first; files are replaced only afterwards
-    fig = band_figure(report.band, title=report.region.name)
-    png = io.BytesIO()
-    fig.savefig(png, format="png", dpi=110)
+    png = render_figure(band_figure(report.band, title=report.region.name), "png", dpi=110)
     md = render_markdown(report)
     if report.missing_figures:
         from .figures import write_figures
@@ -620,7 +618,7 @@ def write_report(report: Report) -> list[Path]:
     pdf = _render_pdf(report)
     folder = FitFolder(out)
     pdf_file, md_file = folder.report_files
-    atomic_write_bytes(folder.band_file, png.getvalue())
+    atomic_write_bytes(folder.band_file, png)
     written.append(folder.band_file)
     atomic_write_bytes(pdf_file, pdf)
     atomic_write_text(md_file, md)

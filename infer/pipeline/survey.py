@@ -59,7 +59,7 @@ from astropy.table import Table
 from ..errors import ChainError, InferError
 from ..inference.config import RunConfig, load_config
 from ..inference.priors import PARAMETERS, Prior, parse_prior
-from ..outputs.files import atomic_write_bytes, atomic_write_text
+from ..outputs.files import atomic_write_text, save_figure
 from ..outputs.fitfolder import SUMMARY_STATS, FitFolder
 from ..quantities import QUANTITIES
 from .fit import fit_region, run_hash
@@ -654,17 +654,10 @@ def _plain_log_ticks(axis) -> None:
 
 def _write_figures(t: Table, out: Path) -> list[Path]:
     fig = survey_figure(t)
-    written = []
     try:
-        for fmt in ("png", "pdf"):
-            buf = io.BytesIO()
-            fig.savefig(buf, format=fmt, dpi=130, metadata={"Creator": "infer"} if fmt == "pdf"
-                        else None)
-            atomic_write_bytes(out / f"survey.{fmt}", buf.getvalue())
-            written.append(out / f"survey.{fmt}")
+        return save_figure(fig, out, "survey", formats=("png", "pdf"), dpi=130)
     finally:
         fig.clear()
-    return written
 
 
 # ---------------------------------------------------------------- cluster ----
