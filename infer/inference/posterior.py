@@ -9,6 +9,7 @@ from dataclasses import dataclass
 import numpy as np
 from astropy.table import Table
 
+from ..errors import ChainError
 from .chainfile import ChainData
 from .model import DERIVED_UNITS, Model
 from .priors import PARAMETERS
@@ -19,6 +20,7 @@ __all__ = [
     "summary_table",
     "identifiability_notes",
     "diagnostics",
+    "short_chain_error",
     "QUANTILES",
 ]
 
@@ -47,6 +49,8 @@ class Posterior:
     log_prob : ndarray (n,)
     burn, thin : int
         Steps discarded at the start, and thinning, of the chain.
+    steps : int
+        Length of the chain the samples come from (0 when not known).
     """
 
     names: tuple[str, ...]
@@ -56,6 +60,7 @@ class Posterior:
     log_prob: np.ndarray
     burn: int
     thin: int
+    steps: int = 0
 
     @property
     def n(self) -> int:
@@ -99,7 +104,32 @@ def posterior_from_chain(model: Model, chain: ChainData, tau, *, max_samples: in
         th, lp = th[idx], lp[idx]
     values = model.values(th)
     derived = model.derived(th)
-    return Posterior(tuple(model.names), th, values, derived, lp, burn, thin)
+    return Posterior(tuple(model.names), th, values, derived, lp, burn, thin, chain.iteration)
+
+
+def short_chain_error(post: Posterior, *, what: str, have: int, needed: int) -> ChainError:
+    """The user error for a chain too short for ``what``, with the advice to run longer.
+
+    Parameters
+    ----------
+    post : Posterior
+        The samples (their burn-in, thinning and chain length are quoted).
+    what : str
+        What needs the samples, e.g. ``"corner plot"``.
+    have, needed : int
+        Usable samples found, and the least ``what`` needs.
+
+    Returns
+    -------
+    ChainError
+        To raise (the CLI turns it into exit code 2 and one line).
+    """
+    steps = f"{post.steps}-step " if post.steps else ""
+    more = f"{max(2 * post.steps, 100)}" if post.steps else "N"
+    return ChainError(f"{what}: only {have} usable posterior samples, at least {needed} needed; "
+                      f"the {steps}chain is too short after discarding {post.burn} burn-in "
+                      f"step{'' if post.burn == 1 else 's'} and thinning by {post.thin}. Run "
+                      f"longer: infer fit ... --resume --max-steps {more}")
 
 
 def _quantiles(x: np.ndarray) -> dict[str, float]:

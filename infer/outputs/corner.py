@@ -14,7 +14,7 @@ from typing import TYPE_CHECKING
 import numpy as np
 
 from ..inference.model import Model
-from ..inference.posterior import Posterior
+from ..inference.posterior import Posterior, short_chain_error
 from ..inference.priors import PARAMETERS
 from ..quantities import DERIVED_NAMES, QUANTITIES
 from .canvas import new_figure
@@ -192,8 +192,8 @@ def corner_figure(post: Posterior, model: Model, *,
     data = np.column_stack([c.values for c in cols])
     data = data[np.all(np.isfinite(data), axis=1)]
     if data.shape[0] < 2 * data.shape[1] + 2:
-        raise ValueError(f"corner plot: only {data.shape[0]} finite posterior samples for "
-                         f"{data.shape[1]} columns; run the chain longer")
+        raise short_chain_error(post, what=f"corner plot of {data.shape[1]} columns",
+                                have=data.shape[0], needed=2 * data.shape[1] + 2)
     k = len(cols)
     panel = 1.75 if k > 4 else 2.2
     side = panel * k + 1.6

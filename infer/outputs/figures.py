@@ -17,6 +17,7 @@ from __future__ import annotations
 from collections.abc import Mapping, Sequence
 from pathlib import Path
 
+from ..errors import ChainError
 from ..inference.model import Model
 from ..inference.posterior import Posterior
 from ..inference.predictive import predictive_draws
@@ -75,6 +76,11 @@ def write_figures(out_dir: str | Path, *, post: Posterior, model: Model, region=
     list of Path
         The files written: corner.<fmt>, predictive.<fmt>, and radial.<fmt> for a
         ``profile = "power-law"`` fit (:mod:`infer.outputs.radial`).
+
+    Raises
+    ------
+    ChainError
+        Too few posterior samples to draw a figure (run the chain longer).
     """
     fmts = [f.lower().lstrip(".") for f in formats]
     bad = [f for f in fmts if f not in ("pdf", "png")]
@@ -90,7 +96,10 @@ def write_figures(out_dir: str | Path, *, post: Posterior, model: Model, region=
         makers[RADIAL_STEM] = lambda: radial_figure(radial_band(post, model), title=name)
     written: list[Path] = []
     for stem in folder.figure_stems(radial=model.plan is not None):
-        fig = makers[stem]()
+        try:
+            fig = makers[stem]()
+        except ChainError as exc:          # too few samples: say which folder
+            raise ChainError(f"{folder.path}: {exc}") from None
         try:
             written += save_figure(fig, folder.path, stem, formats=fmts,
                                    dpi=_DPI.get(stem, 130))

@@ -12,7 +12,7 @@ from typing import TYPE_CHECKING
 import numpy as np
 
 from ..inference.model import Model
-from ..inference.posterior import Posterior
+from ..inference.posterior import Posterior, short_chain_error
 from ..inference.predictive import draw_predictive, ecdf_check, observed, uses_observable
 from .canvas import new_figure
 
@@ -59,7 +59,8 @@ def _predictive_row(fig, gs_row, post: Posterior, model: Model, key: str, n_draw
     ln_obs, var_obs = observed(model, key)
     mu, sd, draws = draw_predictive(post, model, key, n_draws, rng)   # ln, plotted unit
     if draws.size < 2:
-        raise ValueError(f"predictive check: no finite posterior predictive draws of the {key}s")
+        raise short_chain_error(post, what=f"predictive check of the {key}s", have=draws.size,
+                                needed=2)
     if np.ptp(draws) < 1e-6:                                 # no scatter at all: a spike
         draws = draws + 1e-3 * rng.standard_normal(draws.size)
         sd = np.maximum(sd, 1e-3)

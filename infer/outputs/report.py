@@ -25,7 +25,7 @@ import numpy as np
 from ..errors import ChainError
 from ..inference.forecast import ForecastResult, forecast
 from ..inference.model import Model
-from ..inference.posterior import Posterior, ln_width
+from ..inference.posterior import Posterior, ln_width, short_chain_error
 from . import pagelayout
 from .band import SpectrumBand, band_figure, spectrum_band
 from .fitfolder import BAND_FILE, REPORT_FILES, FitFolder
@@ -143,8 +143,7 @@ def build_report(fit_dir: str | Path, *, forecasts: Sequence[tuple[str, float]] 
     config, model, region, chain = fit.config, fit.model, fit.region, fit.chain
     post = fit.posterior()
     if post.n < _MIN_SAMPLES:
-        raise ChainError(f"{out}: only {post.n} usable posterior samples; continue the fit with "
-                         f"`infer fit ... --resume --max-steps N` before reporting")
+        raise short_chain_error(post, what=f"{out}: report", have=post.n, needed=_MIN_SAMPLES)
     diag = _diagnostics(folder, chain)
     table = summary_table(post, model)
     notes = identifiability_notes(post, model)

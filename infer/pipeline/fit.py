@@ -19,6 +19,7 @@ from ..inference.posterior import (
     diagnostics,
     identifiability_notes,
     posterior_from_chain,
+    short_chain_error,
     summary_table,
 )
 from ..inference.sampler import SampleResult, run_sampler
@@ -88,6 +89,8 @@ def finish_outputs(out: Path, model: Model, sample: SampleResult, *, region, con
                    plots: bool = True) -> FitOutcome:
     """Posterior, summaries, diagnostics, pointwise log-likelihood and figures from a chain."""
     post = posterior_from_chain(model, sample.chain, sample.tau)
+    if post.n == 0:         # nothing left after burn-in: no summary to write
+        raise short_chain_error(post, what=f"{out}: summary", have=0, needed=1)
     table = summary_table(post, model)
     notes = identifiability_notes(post, model)
     if not sample.converged:
