@@ -55,22 +55,10 @@ def build_parser() -> argparse.ArgumentParser:
         p = sub.add_parser(name, help=help_text, description=help_text)
         p.add_argument("--debug", action="store_true", default=argparse.SUPPRESS,
                        help="show the full traceback of an internal error")
-        mod = _load(module)
-        if mod is None:
-            p.set_defaults(_unavailable=name)
-            continue
+        mod = importlib.import_module(f"infer.commands.{module}")
         mod.add_arguments(p)
         p.set_defaults(_run=mod.run)
     return parser
-
-
-def _load(module: str):
-    try:
-        return importlib.import_module(f"infer.commands.{module}")
-    except ModuleNotFoundError as exc:
-        if exc.name == f"infer.commands.{module}":
-            return None
-        raise
 
 
 def main(argv: Sequence[str] | None = None) -> int:
@@ -79,10 +67,6 @@ def main(argv: Sequence[str] | None = None) -> int:
     args = parser.parse_args(argv)
     if not getattr(args, "command", None):
         parser.print_help()
-        return 2
-    if getattr(args, "_unavailable", None):
-        sys.stderr.write(f"infer {args.command}: error: this command is not available "
-                         f"in this version\n")
         return 2
     prog = f"infer {args.command}"
     try:

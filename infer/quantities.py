@@ -63,6 +63,11 @@ class QuantityInfo:
             return u.dimensionless_unscaled
         return u.Unit(self.unit)
 
+    @property
+    def column_unit(self) -> u.UnitBase:
+        """The unit of a table column of this quantity (``dex`` kept; "" is dimensionless)."""
+        return u.Unit(self.unit) if self.unit else u.dimensionless_unscaled
+
 
 _CM2S = r"cm$^2$ s$^{-1}$"
 

@@ -133,6 +133,32 @@ def test_plot_on_missing_or_corrupted_folder(demo_fit, tmp_path, capsys):
 
 
 @pytest.mark.slow
+def test_chain_too_short_to_plot_or_report_exits_2_with_advice(demo_fit, tmp_path, cli):
+    """A chain cut to 2 steps (as an interrupted fit leaves it) is a user error, not a bug."""
+    from infer.inference.chainfile import append_chunk, create_chain, read_chain
+
+    out = demo_fit.copy(tmp_path / "short")
+    for f in [*out.glob("*.png"), *out.glob("*.pdf")]:
+        f.unlink()
+    full = read_chain(out / "chain.h5")
+    (out / "chain.h5").unlink()
+    create_chain(out / "chain.h5", names=full.names, n_walkers=full.chain.shape[1],
+                 run_hash=full.run_hash, info=full.info)
+    append_chunk(out / "chain.h5", coords=full.chain[:2], log_prob=full.log_prob[:2],
+                 accepted=full.accepted, random_state=full.random_state, tau_history=[])
+    listing = sorted(p.name for p in out.iterdir())
+    # 16 walkers x 2 steps, the first discarded: 16 samples, fewer than a corner plot of the 6
+    # sampled and 4 derived quantities needs (2 x 10 + 2), and fewer than a report's 50
+    for argv in (["plot", out], ["report", out]):
+        code, stdout, err = cli(argv)
+        assert code == 2, err
+        assert err.count("\n") == 1 and "Traceback" not in err and "internal error" not in err
+        assert str(out) in err and "Run longer" in err and "--max-steps" in err
+        assert "16 usable posterior samples" in err
+    assert sorted(p.name for p in out.iterdir()) == listing        # nothing written
+
+
+@pytest.mark.slow
 def test_fit_killed_then_resumed(demo, tmp_path):
     # the real command in a child process, killed with SIGKILL mid-sampling, then resumed
     cat, cfg = demo

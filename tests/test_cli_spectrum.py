@@ -1,4 +1,5 @@
-"""``infer spectrum`` and :mod:`infer.physics.spectrum`: CSV contents, figures, errors, atomic writes.
+"""``infer spectrum``, :mod:`infer.physics.spectrum` and its file writer: CSV contents, figures,
+errors, atomic writes.
 
 Stable conditions are refused (exit 2, no file), as documented in
 infer/commands/spectrum.py.
@@ -14,7 +15,8 @@ import numpy as np
 import pytest
 
 from infer import InferError, predict
-from infer.physics.spectrum import growth_spectrum, write_spectrum
+from infer.outputs.spectrum_file import write_spectrum
+from infer.physics.spectrum import growth_spectrum
 
 M_H = 1.00784 * u.u          # standard atomic weight of H (IUPAC), docs/physics.md "Inputs"
 DISK = ["--surface-density", "60 g/cm2", "--temperature", "35 K", "--mass-to-flux", "1.6",

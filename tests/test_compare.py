@@ -19,7 +19,8 @@ from scipy import stats
 
 from infer.cli import main
 from infer.errors import InferError
-from infer.inference.comparison import LooResult, compare_fits, compare_loo, psis_loo
+from infer.inference.comparison import LooResult, compare_loo, psis_loo
+from infer.pipeline.compare import compare_fits
 
 S = 4000
 

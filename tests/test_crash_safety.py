@@ -102,12 +102,13 @@ def test_full_disk_keeps_the_saved_chain(tmp_path, monkeypatch):
 
 
 def test_unwritable_output_folder_is_a_clear_error(tmp_path):
-    from infer.outputs.files import atomic_write_text, prepare_out_dir
+    from infer.outputs.files import atomic_write_text
+    from infer.outputs.fitfolder import FitFolder
 
     blocker = tmp_path / "a_file"
     blocker.write_text("x")
     with pytest.raises(InferError, match="cannot create the folder"):
-        prepare_out_dir(blocker / "out", run_hash="h", resume=False)
+        FitFolder(blocker / "out").prepare(run_hash="h", resume=False)
     with pytest.raises(InferError, match="cannot write"):
         atomic_write_text(blocker / "summary.md", "text")
     assert blocker.read_text() == "x"

@@ -1,4 +1,5 @@
-"""Figures of a fit (infer.outputs.figures) and the ``infer plot`` command.
+"""Figures of a fit (infer.outputs.corner, .predictive, .figures), the predictive statistics
+(infer.inference.predictive) and the ``infer plot`` command.
 
 The fit is synthetic and small: clump spacings around 50 au and masses
 around 20 Jupiter masses, a Posterior built from prior draws (no sampler
@@ -22,7 +23,12 @@ from infer.inference.chainfile import ChainData
 from infer.inference.config import parse_config
 from infer.inference.model import Observations, build_model
 from infer.inference.posterior import Posterior
+from infer.inference.predictive import ecdf_check, predictive_draws
+from infer.outputs import corner
 from infer.outputs import figures as plots
+from infer.outputs.canvas import close_figure
+from infer.outputs.fitfolder import LoadedFit
+from infer.outputs.predictive import predictive_figure
 
 LN10 = np.log(10.0)
 
@@ -79,16 +85,16 @@ def fit():
 @pytest.fixture(scope="module")
 def corner_fig(fit):
     model, post = fit
-    fig = plots.corner_figure(post, model, title="synthetic",
+    fig = corner.corner_figure(post, model, title="synthetic",
                               truths={"wavelength": 50.0, "ionization": 1e-9})
     yield fig
-    plots._close(fig)
+    close_figure(fig)
 
 
 # ------------------------------------------------------------------- corner
 def test_corner_has_one_panel_per_pair_of_columns(fit, corner_fig):
     model, post = fit
-    cols = plots.corner_columns(post, model)
+    cols = corner.corner_columns(post, model)
     # 2 sampled (mass_to_flux, ionization) + B, eta_total, lambda_m, M_frag
     assert [c.name for c in cols] == ["mass_to_flux", "ionization", "field", "eta_total",
                                       "wavelength", "fragment_mass"]
@@ -97,7 +103,7 @@ def test_corner_has_one_panel_per_pair_of_columns(fit, corner_fig):
 
 def test_corner_labels_carry_units(fit, corner_fig):
     model, post = fit
-    k = len(plots.corner_columns(post, model))
+    k = len(corner.corner_columns(post, model))
     bottom = [ax.get_xlabel() for ax in corner_fig.axes[k * (k - 1):]]
     for unit in ("[mG]", "[cm$^2$ s$^{-1}$]", "[au]", "[$M_\\mathrm{J}$]"):
         assert any(unit in lab for lab in bottom), (unit, bottom)
@@ -109,7 +115,7 @@ def test_corner_labels_carry_units(fit, corner_fig):
 
 def test_corner_titles_are_medians_and_68_percent_intervals(fit, corner_fig):
     model, post = fit
-    cols = plots.corner_columns(post, model)
+    cols = corner.corner_columns(post, model)
     k = len(cols)
     i = [c.name for c in cols].index("wavelength")
     title = corner_fig.axes[i * k + i].get_title()
@@ -117,7 +123,7 @@ def test_corner_titles_are_medians_and_68_percent_intervals(fit, corner_fig):
     expect = np.log10(post.derived["wavelength"]) if cols[i].log else post.derived["wavelength"]
     np.testing.assert_allclose(x, expect)
     lo, mid, hi = np.quantile(x, [0.16, 0.5, 0.84])   # numpy reference
-    fmt = plots._title_format(x)
+    fmt = corner._title_format(x)
     assert f"{mid:{fmt}}" in title
     assert f"-{mid - lo:{fmt}}" in title and f"+{hi - mid:{fmt}}" in title
     note = "\n".join(t.get_text() for t in corner_fig.texts)
@@ -127,13 +133,13 @@ def test_corner_titles_are_medians_and_68_percent_intervals(fit, corner_fig):
 
 def test_log_columns_are_log10_of_the_values(fit):
     model, post = fit
-    cols = {c.name: c for c in plots.corner_columns(post, model)}
+    cols = {c.name: c for c in corner.corner_columns(post, model)}
     np.testing.assert_allclose(cols["ionization"].values, np.log10(post.values["ionization"]))
     np.testing.assert_allclose(cols["eta_total"].values, np.log10(post.derived["eta_total"]))
     assert cols["ionization"].transform(1e-9) == pytest.approx(-9.0)
     # a narrow positive quantity stays linear, one spanning two decades is logged
-    narrow = plots._column("temperature", np.linspace(30.0, 50.0, 101), "$T$ [K]")
-    wide = plots._column("wavelength", np.geomspace(10.0, 1000.0, 101), "$\\lambda$ [au]")
+    narrow = corner._column("temperature", np.linspace(30.0, 50.0, 101), "$T$ [K]")
+    wide = corner._column("wavelength", np.geomspace(10.0, 1000.0, 101), "$\\lambda$ [au]")
     assert not narrow.log and narrow.transform(40.0) == 40.0 and narrow.label == "$T$ [K]"
     assert wide.log and wide.label == "$\\log_{10}\\,\\lambda$ [au]"
     np.testing.assert_allclose(wide.values, np.linspace(1.0, 3.0, 101))
@@ -142,7 +148,7 @@ def test_log_columns_are_log10_of_the_values(fit):
 def test_ideal_mode_drops_the_zero_diffusivity():
     model = build_model(_config("ideal"), _observations())
     post = _posterior(model, _prior_theta(model, n=200))
-    cols = {c.name: c for c in plots.corner_columns(post, model)}
+    cols = {c.name: c for c in corner.corner_columns(post, model)}
     assert list(cols) == ["mass_to_flux", "spacing_scatter", "mass_scatter", "field",
                           "wavelength", "fragment_mass"]        # no eta_total: it is 0
     assert not cols["spacing_scatter"].log            # a width in dex is never logged again
@@ -170,7 +176,7 @@ def test_predictive_draws_match_the_lognormal(key, derived, scatter_dex, rel_err
     centre = float(post.derived[derived][0])
     assert np.isfinite(centre)
     n = 40000
-    x = plots.predictive_draws(post, model, observable=key, n_draws=n, seed=11)
+    x = predictive_draws(post, model, observable=key, n_draws=n, seed=11)
     shape = np.sqrt((scatter_dex * LN10) ** 2 + rel_err ** 2)
     ref = stats.lognorm(s=shape, scale=centre)
     p = np.array([0.025, 0.16, 0.5, 0.84, 0.975])
@@ -186,14 +192,14 @@ def test_predictive_p_value_flags_a_misfit():
     rng = np.random.default_rng(5)
     mu, sd = np.zeros(400), np.full(400, 0.3)
     grid = np.linspace(-2, 2, 50)
-    _, _, p_ok = plots._ecdf_check(mu, sd, 0.3 * rng.standard_normal(12), grid, rng)
-    _, _, p_bad = plots._ecdf_check(mu, sd, 1.5 + 0.3 * rng.standard_normal(12), grid, rng)
+    _, _, p_ok = ecdf_check(mu, sd, 0.3 * rng.standard_normal(12), grid, rng)
+    _, _, p_bad = ecdf_check(mu, sd, 1.5 + 0.3 * rng.standard_normal(12), grid, rng)
     assert p_ok > 0.05 and p_bad < 0.01
 
 
 def test_predictive_figure_panels_units_and_data(fit):
     model, post = fit
-    fig = plots.predictive_figure(post, model, n_draws=500, title="synthetic")
+    fig = predictive_figure(post, model, n_draws=500, title="synthetic")
     try:
         assert len(fig.axes) == 6            # per observable: density, observed strip, ECDF
         xlabels = [ax.get_xlabel() for ax in fig.axes]
@@ -202,18 +208,18 @@ def test_predictive_figure_panels_units_and_data(fit):
         xs = np.sort(np.concatenate([ln.get_xdata() for ln in strip.get_lines()]))
         np.testing.assert_allclose(xs, np.sort(np.exp(model.obs.ln_spacing)) / AU, rtol=1e-12)
     finally:
-        plots._close(fig)
+        close_figure(fig)
 
 
 def test_predictive_figure_skips_an_unused_observable():
     model = build_model(_config(scatter=0.2, use_masses=False), _observations())
     post = _posterior(model, _prior_theta(model, n=200))
-    fig = plots.predictive_figure(post, model, n_draws=300)
+    fig = predictive_figure(post, model, n_draws=300)
     try:
         assert len(fig.axes) == 3
         assert all("mass" not in ax.get_xlabel() for ax in fig.axes)
     finally:
-        plots._close(fig)
+        close_figure(fig)
 
 
 # ---------------------------------------------------------- writer and CLI
@@ -233,11 +239,11 @@ def test_infer_plot_writes_the_four_figures(tmp_path, monkeypatch, capsys):
     tau = np.ones(model.ndim)
     calls = []
 
-    def fake_load_fit(out_dir):
-        calls.append(str(out_dir))
-        return None, model, region, chain, tau
+    def fake_load(folder):
+        calls.append(str(folder.path))
+        return LoadedFit(None, model, region, chain, tau)
 
-    monkeypatch.setattr("infer.pipeline.fit.load_fit", fake_load_fit)
+    monkeypatch.setattr("infer.outputs.fitfolder.FitFolder.load", fake_load)
     (tmp_path / "chain.h5").write_bytes(b"placeholder")
     assert main(["plot", str(tmp_path)]) == 0
     assert calls == [str(tmp_path)]
@@ -252,15 +258,15 @@ def test_infer_plot_writes_the_four_figures(tmp_path, monkeypatch, capsys):
     img = mpimg.imread(tmp_path / "predictive.png")
     assert img.ndim == 3 and img.shape[2] in (3, 4)
     assert img.shape[1] == round(12.5 * 130)          # figure width (in) times dpi
-    corner = mpimg.imread(tmp_path / "corner.png")
-    assert corner.shape[0] > corner.shape[1] > 1000   # square-ish, title band on top
+    img = mpimg.imread(tmp_path / "corner.png")
+    assert img.shape[0] > img.shape[1] > 1000   # square-ish, title band on top
 
 
 def test_infer_plot_format_option_reaches_the_writer(tmp_path, monkeypatch, capsys):
     model = build_model(_config("ideal", scatter=0.2, use_masses=False), _observations())
     chain = _fake_chain(model, _prior_theta(model, n=160))
-    monkeypatch.setattr("infer.pipeline.fit.load_fit", lambda d: (None, model, "r", chain,
-                                                             np.ones(model.ndim)))
+    monkeypatch.setattr("infer.outputs.fitfolder.FitFolder.load",
+                        lambda folder: LoadedFit(None, model, "r", chain, np.ones(model.ndim)))
     seen = {}
 
     def fake_write(out_dir, *, post, model, region, formats):

@@ -246,14 +246,14 @@ def test_rerun_skips_finished_regions(survey, catalogs, config):
 @pytest.mark.slow
 def test_raised_max_steps_continues_a_finished_chain(survey, catalogs, config, tmp_path):
     """A finished, unconverged region is continued (not refitted) when max_steps grows."""
-    from infer.pipeline.survey import _fit_task, _Task
+    from infer.pipeline.survey.tasks import FitTask, fit_task
 
     out, _, _ = survey
     shutil.copytree(out / FOLDERS[0], tmp_path / FOLDERS[0])
     region = next(e.region for e in read_regions([catalogs[1]], config) if e.name == GROUPS[0])
     longer = region_config(config.with_sampler(max_steps=STEPS + 50), region)
-    task = _Task(region, longer, catalogs[1].read_bytes(), FOLDERS[0], str(tmp_path), False)
-    row = _fit_task(task)
+    task = FitTask(region, longer, catalogs[1].read_bytes(), FOLDERS[0], str(tmp_path), False)
+    row = fit_task(task)
     assert row["error"] == "" and row["steps"] == STEPS + 50 and not row["skipped"]
     diag = json.loads((tmp_path / FOLDERS[0] / "diagnostics.json").read_text())
     assert diag["resumed_from_step"] == STEPS
@@ -276,15 +276,15 @@ def test_lost_worker_region_is_refitted(survey, sequential):
 @pytest.mark.slow
 def test_interrupted_region_resumes_from_its_checkpoint(catalogs, config, sequential, tmp_path):
     """A partial folder left by a lost task is continued from its checkpoint, to the same chain."""
-    from infer.pipeline.survey import _fit_task, _Task
+    from infer.pipeline.survey.tasks import FitTask, fit_task
 
     region = read_catalog(catalogs[0])[1]
     data = catalogs[0].read_bytes()
-    half = _Task(region, region_config(config.with_sampler(max_steps=STEPS // 2), region), data,
+    half = FitTask(region, region_config(config.with_sampler(max_steps=STEPS // 2), region), data,
                  FOLDERS[1], str(tmp_path), False)
-    assert _fit_task(half)["steps"] == STEPS // 2
+    assert fit_task(half)["steps"] == STEPS // 2
     os.replace(tmp_path / FOLDERS[1], tmp_path / f".partial-{FOLDERS[1]}")  # as if cut off here
-    row = _fit_task(_Task(region, region_config(config, region), data, FOLDERS[1], str(tmp_path),
+    row = fit_task(FitTask(region, region_config(config, region), data, FOLDERS[1], str(tmp_path),
                           False))
     assert row["error"] == "" and row["steps"] == STEPS
     diag = json.loads((tmp_path / FOLDERS[1] / "diagnostics.json").read_text())
@@ -411,6 +411,17 @@ def test_bad_group_is_read_apart_from_the_others(catalogs, config):
         assert not e.error and e.region.source == str(catalogs[1])
         assert np.array_equal(e.region.spacings.value, ref[e.name].spacings.value)
         assert np.array_equal(e.region.masses.value, ref[e.name].masses.value)
+
+
+def test_groups_are_isolated_in_memory(catalogs, config, monkeypatch):
+    """The bad group is split off without writing any file (no temporary catalogs)."""
+    def refuse(*args, **kwargs):
+        raise AssertionError("a table was written while reading the catalogs")
+
+    monkeypatch.setattr(Table, "write", refuse)
+    entries = read_regions([catalogs[1]], config)
+    assert [e.name for e in entries] == [GROUPS[0], "Lonely", *GROUPS[1:]]
+    assert [bool(e.error) for e in entries] == [False, True, False, False, False]
 
 
 def test_unreadable_file_is_one_failed_row(tmp_path, config):

@@ -23,7 +23,7 @@ from ..errors import CatalogError, InferError
 from ..units import parse_quantity
 from . import dustmass
 
-__all__ = ["META_UNITS", "OVERRIDE_KEYS", "resolve_metadata", "dust_settings"]
+__all__ = ["META_UNITS", "OVERRIDE_KEYS", "resolve_metadata", "dust_settings", "check_overrides"]
 
 #: metadata key -> canonical unit (dimensionless keys are stored as float)
 META_UNITS: dict[str, u.UnitBase] = {
@@ -283,3 +283,25 @@ def dust_settings(meta: Mapping[str, Any], *, source: str) -> tuple[dict[str, An
         "gas_to_dust": float(g),
     }
     return settings, notes
+
+
+def check_overrides(src: str, overrides: Mapping[str, Any] | None) -> dict[str, Any]:
+    """The run config's ``[catalog]`` table with lower-case keys, checked against OVERRIDE_KEYS.
+
+    Raises
+    ------
+    CatalogError
+        Not a table, or an unknown key.
+    """
+    if overrides is None:
+        return {}
+    if not isinstance(overrides, Mapping):
+        raise CatalogError(f"{src}: catalog overrides must be a table of key = value")
+    out = {}
+    for key, value in overrides.items():
+        k = str(key).strip().lower()
+        if k not in OVERRIDE_KEYS:
+            raise CatalogError(f"run config [catalog]: unknown key {key!r}; known keys are "
+                               f"{', '.join(OVERRIDE_KEYS)}")
+        out[k] = value
+    return out

@@ -17,7 +17,7 @@ import csv
 import re
 import warnings
 from collections.abc import Mapping
-from dataclasses import dataclass
+from dataclasses import dataclass, replace
 from pathlib import Path
 from typing import Any
 
@@ -75,6 +75,12 @@ class RawCatalog:
     meta: dict[str, Any]
     n_rows: int
     warnings: tuple[str, ...]
+
+    def subset(self, rows: np.ndarray) -> RawCatalog:
+        """The same catalog with only ``rows`` (indices, in that order), e.g. one group."""
+        rows = np.asarray(rows, dtype=int)
+        return replace(self, columns={k: v[rows] for k, v in self.columns.items()},
+                       n_rows=int(rows.size))
 
 
 def _one_line(exc: BaseException) -> str:

@@ -27,7 +27,7 @@ silently: the only exclusions are the ids listed in the run config's
 
 from __future__ import annotations
 
-from collections.abc import Mapping
+from collections.abc import Mapping, Sequence
 from dataclasses import dataclass
 from pathlib import Path
 from typing import Any
@@ -37,18 +37,18 @@ import numpy as np
 from astropy.coordinates import SkyCoord
 from scipy.spatial import cKDTree
 
-from ..errors import CatalogError
+from ..errors import CatalogError, InferError
 from . import geometry
 from .columns import Cells, column_layout, column_values, is_kind
 from .dustmass import dust_mass
 from .geometry import SPACING_METHODS
 from .limits import selection_limits
-from .metadata import OVERRIDE_KEYS, dust_settings, resolve_metadata
-from .read import read_table
+from .metadata import OVERRIDE_KEYS, check_overrides, dust_settings, resolve_metadata
+from .read import RawCatalog, read_table
 from .summary import summarize
 
-__all__ = ["Region", "read_catalog", "check_catalog", "summarize", "OVERRIDE_KEYS",
-           "SPACING_METHODS", "COLUMNS"]
+__all__ = ["Region", "read_catalog", "regions_from_table", "check_catalog", "select_region",
+           "summarize", "OVERRIDE_KEYS", "SPACING_METHODS", "COLUMNS"]
 
 #: the columns the reader uses
 COLUMNS = ("id", "group", "x", "y", "ra", "dec", "x_err", "y_err", "pos_err",
@@ -304,21 +304,6 @@ def _region(cells, lay, vals, rows, name, group, overrides, spacing, excluded, n
     )
 
 
-def _check_overrides(src: str, overrides: Mapping[str, Any] | None) -> dict[str, Any]:
-    if overrides is None:
-        return {}
-    if not isinstance(overrides, Mapping):
-        raise CatalogError(f"{src}: catalog overrides must be a table of key = value")
-    out = {}
-    for key, value in overrides.items():
-        k = str(key).strip().lower()
-        if k not in OVERRIDE_KEYS:
-            raise CatalogError(f"run config [catalog]: unknown key {key!r}; known keys are "
-                               f"{', '.join(OVERRIDE_KEYS)}")
-        out[k] = value
-    return out
-
-
 def _exclusions(cells: Cells, wanted: Any) -> dict[int, str]:
     if wanted is None:
         return {}
@@ -365,11 +350,25 @@ def read_catalog(path: str | Path, *, overrides: Mapping[str, Any] | None = None
     CatalogError
         (a ValueError) naming the file, row, id and column, and what to fix.
     """
-    src = str(path)
     if spacing not in SPACING_METHODS:
         raise CatalogError(f"spacing: must be one of {', '.join(SPACING_METHODS)}, got {spacing!r}")
-    ov = _check_overrides(src, overrides)
+    ov = check_overrides(str(path), overrides)
     raw = read_table(path, units=ov.get("units"))
+    return regions_from_table(raw, overrides=ov, spacing=spacing)
+
+
+def regions_from_table(raw: RawCatalog, *, overrides: Mapping[str, Any] | None = None,
+                       spacing: str = "mst") -> list[Region]:
+    """Validate a catalog already read (:func:`infer.catalog.read.read_table`); one Region per group.
+
+    What :func:`read_catalog` does after reading the file, for a table held in memory (e.g.
+    the rows of one group, :meth:`~infer.catalog.read.RawCatalog.subset`). Messages name
+    ``raw.source``; the ``units`` override has been applied when the table was read.
+    """
+    src = raw.source
+    if spacing not in SPACING_METHODS:
+        raise CatalogError(f"spacing: must be one of {', '.join(SPACING_METHODS)}, got {spacing!r}")
+    ov = check_overrides(src, overrides)
     lay = column_layout(raw)
     cells = Cells(raw)
     cells.ids = cells.text("id")
@@ -398,3 +397,23 @@ def check_catalog(path: str | Path, *, overrides: Mapping[str, Any] | None = Non
     """
     return summarize(read_catalog(path, overrides=overrides, spacing=spacing))
 
+
+def select_region(regions: Sequence[Region], name: str | None) -> Region:
+    """The region to fit: the only one, or the one named ``name``.
+
+    Raises
+    ------
+    InferError
+        Several regions and no name (pick one with ``--region``), or no region of that name.
+    """
+    if name is None:
+        if len(regions) > 1:
+            names = ", ".join(r.name for r in regions)
+            raise InferError(f"the catalog holds {len(regions)} regions ({names}); pick one with "
+                             f"--region NAME, or fit them all with `infer survey`")
+        return regions[0]
+    for r in regions:
+        if r.name == name:
+            return r
+    raise InferError(f"--region {name}: no such region; the catalog has "
+                     f"{', '.join(r.name for r in regions)}")

@@ -4,14 +4,12 @@ from __future__ import annotations
 
 import argparse
 import json
-import tomllib
-from pathlib import Path
 from typing import Any
 
 import astropy.units as u
 
 from ..catalog.regions import SPACING_METHODS, check_catalog
-from ..errors import ConfigError
+from ..inference.config import catalog_options
 
 __all__ = ["add_arguments", "run", "format_text"]
 
@@ -28,44 +26,8 @@ def add_arguments(parser: argparse.ArgumentParser) -> None:
     parser.add_argument("--json", action="store_true", help="print one JSON object")
 
 
-def _toml_catalog_options(path: str | Path) -> tuple[dict[str, Any], str]:
-    """The ``[catalog]`` table and ``[model] spacing`` of a run config (stand-in).
-
-    Only these two entries are read; the full config parser validates the rest.
-    """
-    p = Path(path)
-    try:
-        with p.open("rb") as fh:
-            data = tomllib.load(fh)
-    except FileNotFoundError:
-        raise ConfigError(f"{p}: no such run config file") from None
-    except (OSError, UnicodeDecodeError) as exc:
-        raise ConfigError(f"{p}: cannot read the run config ({exc})") from None
-    except tomllib.TOMLDecodeError as exc:
-        raise ConfigError(f"{p}: not valid TOML ({exc})") from None
-    catalog = data.get("catalog", {})
-    model = data.get("model", {})
-    if not isinstance(catalog, dict) or not isinstance(model, dict):
-        raise ConfigError(f"{p}: [catalog] and [model] must be tables")
-    spacing = model.get("spacing", "mst")
-    if spacing not in SPACING_METHODS:
-        raise ConfigError(f"{p}: [model] spacing must be one of {', '.join(SPACING_METHODS)}, "
-                          f"got {spacing!r}")
-    return dict(catalog), spacing
-
-
-def _catalog_options(path: str | Path) -> tuple[dict[str, Any], str]:
-    try:
-        from ..inference.config import catalog_options  # the full run-config parser, when present
-    except ImportError as exc:
-        if isinstance(exc, ModuleNotFoundError) and exc.name != "infer.inference.config":
-            raise
-        return _toml_catalog_options(path)
-    return catalog_options(path)
-
-
 def run(args: argparse.Namespace) -> int:
-    overrides, spacing = (_catalog_options(args.config) if args.config else ({}, "mst"))
+    overrides, spacing = (catalog_options(args.config) if args.config else ({}, "mst"))
     if args.spacing is not None:
         spacing = args.spacing
     data = check_catalog(args.catalog, overrides=overrides, spacing=spacing)

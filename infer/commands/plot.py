@@ -30,12 +30,11 @@ def parse_formats(text: str) -> tuple[str, ...]:
 
 def run(args: argparse.Namespace) -> int:
     formats = parse_formats(args.format)
-    from ..inference.posterior import posterior_from_chain
-    from ..outputs.figures import write_figures
-    from ..pipeline.fit import load_fit
+    from ..outputs import figures
+    from ..outputs.fitfolder import open_fit
 
-    _, model, region, chain, tau = load_fit(args.dir)
-    post = posterior_from_chain(model, chain, tau)
-    for path in write_figures(args.dir, post=post, model=model, region=region, formats=formats):
+    fit = open_fit(args.dir).load()
+    for path in figures.write_figures(args.dir, post=fit.posterior(), model=fit.model,
+                                      region=fit.region, formats=formats):
         print(path)
     return 0

@@ -70,10 +70,11 @@ def run(args: argparse.Namespace) -> int:
 
 
 def _compare(args: argparse.Namespace) -> int:
-    from ..inference.comparison import compare_fits
     from ..outputs.files import atomic_write_text
+    from ..outputs.fitfolder import open_fit
+    from ..pipeline.compare import compare_fits
 
-    out = Path(args.out) if args.out else Path(args.dirs[0]) / "compare.md"
+    out = Path(args.out) if args.out else open_fit(args.dirs[0]).compare_file
     if out.is_dir():
         raise InferError(f"--out {out}: is a folder; give a file name such as {out / 'compare.md'}")
     if not out.parent.is_dir():

@@ -11,7 +11,8 @@ import argparse
 from pathlib import Path
 
 from ..errors import InferError
-from ..physics.spectrum import FORMATS, growth_spectrum, write_spectrum
+from ..outputs.spectrum_file import FORMATS, write_spectrum
+from ..physics.spectrum import growth_spectrum
 from .conditions import add_condition_arguments, conditions_from_args, option_message
 
 __all__ = ["add_arguments", "run"]

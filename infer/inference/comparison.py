@@ -1,7 +1,8 @@
 """Leave-one-out comparison of two fits of the same catalog (PSIS-LOO).
 
-Each fit folder holds ``pointwise.npz``: the log-likelihood of every
-observation (clump spacings, then masses) for posterior samples. Pareto-smoothed
+Each fit stores the log-likelihood of every observation (clump spacings, then
+masses) for posterior samples (``pointwise.npz``; two fit folders are compared by
+:func:`infer.pipeline.compare.compare_fits`). Pareto-smoothed
 importance sampling turns it into the expected log pointwise predictive
 density of each observation left out (elpd_i) without refitting (Vehtari,
 Gelman & Gabry 2017, Stat. Comput. 27, 1413). The computation is done by
@@ -18,17 +19,13 @@ log-likelihood.
 
 from __future__ import annotations
 
-import hashlib
-import json
 from dataclasses import dataclass, field
-from pathlib import Path
 
 import numpy as np
 
-from ..errors import ChainError, InferError
+from ..errors import InferError
 
-__all__ = ["LooResult", "Comparison", "psis_loo", "compare_loo", "compare_fits",
-           "load_pointwise", "K_WARN", "MIN_DELTA", "N_SE"]
+__all__ = ["LooResult", "Comparison", "psis_loo", "compare_loo", "K_WARN", "MIN_DELTA", "N_SE"]
 
 #: Pareto k above which an observation's importance-sampling estimate is unreliable
 #: (Vehtari, Gelman & Gabry 2017, Stat. Comput. 27, 1413; Vehtari et al. 2024, JMLR 25(72), 1,
@@ -247,95 +244,3 @@ def compare_loo(a: LooResult, b: LooResult, *, names: tuple[str, str] = ("fit 1"
         warnings.append(f"only {a.n_obs} observations: the standard error of the difference is "
                         f"itself rough; do not read much into differences of a few units.")
     return Comparison((n1, n2), (a, b), delta, se, preferred, verdict, warnings)
-
-
-def load_pointwise(fit_dir: str | Path) -> tuple[np.ndarray, tuple[str, ...]]:
-    """(loglike, labels) of a fit folder's pointwise.npz.
-
-    Raises
-    ------
-    ChainError
-        If the file is missing or unreadable.
-    """
-    p = Path(fit_dir) / "pointwise.npz"
-    if not p.is_file():
-        raise ChainError(f"{fit_dir}: pointwise.npz is missing; this is not a finished fit "
-                         f"folder (run `infer fit` to the end)")
-    try:
-        with np.load(p, allow_pickle=False) as z:
-            ll = np.asarray(z["loglike"], dtype=float)
-            labels = tuple(str(x) for x in z["labels"])
-    except (OSError, KeyError, ValueError, TypeError) as exc:
-        raise ChainError(f"{p}: unreadable ({type(exc).__name__}); refit the folder") from None
-    if ll.ndim != 2 or ll.shape[1] != len(labels):
-        raise ChainError(f"{p}: inconsistent shapes; refit the folder")
-    return ll, labels
-
-
-def _run_info(fit_dir: Path) -> dict:
-    from ..outputs.files import RUN_FILE
-
-    p = fit_dir / RUN_FILE
-    try:
-        info = json.loads(p.read_text())
-        str(info["source"])
-        str(info["region"])
-    except (OSError, ValueError, KeyError, TypeError):
-        raise ChainError(f"{fit_dir}: {RUN_FILE} is missing or unreadable; not a fit folder") from None
-    return info
-
-
-def _digest(path: Path) -> str | None:
-    try:
-        return hashlib.sha256(path.read_bytes()).hexdigest()
-    except OSError:
-        return None
-
-
-def _fit_name(fit_dir: Path) -> str:
-    from .config import load_config
-
-    try:
-        mode = load_config(fit_dir / "config.toml").model.diffusion
-    except InferError:
-        return fit_dir.name
-    return f"{fit_dir.name} ({mode})"
-
-
-def compare_fits(dir1: str | Path, dir2: str | Path) -> Comparison:
-    """PSIS-LOO comparison of two fit folders of the same catalog and observations.
-
-    Raises
-    ------
-    ChainError
-        A folder is not a finished fit.
-    InferError
-        The fits are of different catalogs, regions or observations.
-    """
-    d1, d2 = Path(dir1), Path(dir2)
-    for d in (d1, d2):
-        if not d.is_dir():
-            raise ChainError(f"{d}: no such fit folder")
-    r1, r2 = _run_info(d1), _run_info(d2)
-    if r1["region"] != r2["region"]:
-        raise InferError(f"the fits are of different regions ({r1['region']} and {r2['region']}); "
-                         f"compare fits of the same catalog and region")
-    s1, s2 = Path(r1["source"]), Path(r2["source"])
-    h1, h2 = _digest(s1), _digest(s2)
-    if h1 is None or h2 is None:
-        if s1.resolve() != s2.resolve():
-            raise InferError(f"cannot check that the fits used the same catalog ({s1} and {s2}; "
-                             f"{s1 if h1 is None else s2} is no longer there)")
-    elif h1 != h2:
-        raise InferError(f"the fits used different catalogs ({s1} and {s2}); compare fits of the "
-                         f"same catalog")
-    ll1, lab1 = load_pointwise(d1)
-    ll2, lab2 = load_pointwise(d2)
-    if lab1 != lab2:
-        raise InferError(f"the fits are not over the same observations ({len(lab1)} and "
-                         f"{len(lab2)}; spacing method or exclusions differ); compare fits with "
-                         f"the same observations")
-    n1, n2 = _fit_name(d1), _fit_name(d2)
-    if n1 == n2:
-        n1, n2 = f"{n1} [1]", f"{n2} [2]"
-    return compare_loo(psis_loo(ll1, labels=lab1), psis_loo(ll2, labels=lab2), names=(n1, n2))

@@ -5,11 +5,11 @@ from __future__ import annotations
 import platform
 from collections.abc import Mapping
 from dataclasses import dataclass
-from pathlib import Path
 
 import numpy as np
 from astropy.table import Table
 
+from ..errors import ChainError
 from .chainfile import ChainData
 from .model import DERIVED_UNITS, Model
 from .priors import PARAMETERS
@@ -20,7 +20,7 @@ __all__ = [
     "summary_table",
     "identifiability_notes",
     "diagnostics",
-    "write_summary",
+    "short_chain_error",
     "QUANTILES",
 ]
 
@@ -49,6 +49,8 @@ class Posterior:
     log_prob : ndarray (n,)
     burn, thin : int
         Steps discarded at the start, and thinning, of the chain.
+    steps : int
+        Length of the chain the samples come from (0 when not known).
     """
 
     names: tuple[str, ...]
@@ -58,6 +60,7 @@ class Posterior:
     log_prob: np.ndarray
     burn: int
     thin: int
+    steps: int = 0
 
     @property
     def n(self) -> int:
@@ -101,7 +104,32 @@ def posterior_from_chain(model: Model, chain: ChainData, tau, *, max_samples: in
         th, lp = th[idx], lp[idx]
     values = model.values(th)
     derived = model.derived(th)
-    return Posterior(tuple(model.names), th, values, derived, lp, burn, thin)
+    return Posterior(tuple(model.names), th, values, derived, lp, burn, thin, chain.iteration)
+
+
+def short_chain_error(post: Posterior, *, what: str, have: int, needed: int) -> ChainError:
+    """The user error for a chain too short for ``what``, with the advice to run longer.
+
+    Parameters
+    ----------
+    post : Posterior
+        The samples (their burn-in, thinning and chain length are quoted).
+    what : str
+        What needs the samples, e.g. ``"corner plot"``.
+    have, needed : int
+        Usable samples found, and the least ``what`` needs.
+
+    Returns
+    -------
+    ChainError
+        To raise (the CLI turns it into exit code 2 and one line).
+    """
+    steps = f"{post.steps}-step " if post.steps else ""
+    more = f"{max(2 * post.steps, 100)}" if post.steps else "N"
+    return ChainError(f"{what}: only {have} usable posterior samples, at least {needed} needed; "
+                      f"the {steps}chain is too short after discarding {post.burn} burn-in "
+                      f"step{'' if post.burn == 1 else 's'} and thinning by {post.thin}. Run "
+                      f"longer: infer fit ... --resume --max-steps {more}")
 
 
 def _quantiles(x: np.ndarray) -> dict[str, float]:
@@ -240,71 +268,3 @@ def diagnostics(*, chain: ChainData, tau, converged: bool, post: Posterior, opti
     if extra:
         d.update(extra)
     return d
-
-
-def _fmt(v: float) -> str:
-    if not np.isfinite(v):
-        return "n/a"
-    return f"{v:.3g}"
-
-
-def _tex_num(v: float) -> str:
-    if not np.isfinite(v):
-        return "--"
-    s = f"{v:.3g}"
-    if "e" in s:
-        m, e = s.split("e")
-        return f"{m}\\times10^{{{int(e)}}}"
-    return s
-
-
-_TEX_UNITS = {"": "", "dex": "dex", "g / cm2": r"g\,cm$^{-2}$", "K": "K", "solMass": r"M$_\odot$",
-              "au": "au", "1 / s": r"s$^{-1}$", "dyn / cm2": r"dyn\,cm$^{-2}$", "mG": "mG",
-              "cm2 / s": r"cm$^2$\,s$^{-1}$", "yr": "yr", "jupiterMass": r"M$_\mathrm{J}$"}
-
-
-def write_summary(table: Table, notes: list[str], out_dir: str | Path, *, header: Mapping) -> None:
-    """Write summary.ecsv, summary.md and summary.tex (each atomically)."""
-    from ..outputs.files import atomic_write_text
-
-    out_dir = Path(out_dir)
-    t = table.copy()
-    t.meta.update({k: v for k, v in header.items()})
-    t.meta["identifiability"] = list(notes)
-    import io
-
-    buf = io.StringIO()
-    t.write(buf, format="ascii.ecsv")
-    atomic_write_text(out_dir / "summary.ecsv", buf.getvalue())
-
-    lines = [f"# Posterior summary: {header.get('region', '')}", ""]
-    for key in ("catalog", "diffusion", "fragment_mass_convention", "derived_quantities",
-                "selection", "measurements", "converged"):
-        if key in header:
-            lines.append(f"* {key.replace('_', ' ')}: {header[key]}")
-    lines += ["", "| quantity | unit | median | 68% interval | 95% interval | kind |",
-              "|---|---|---|---|---|---|"]
-    for r in t:
-        lines.append(f"| {r['name']} | {r['unit'] or '-'} | {_fmt(r['median'])} | "
-                     f"{_fmt(r['p16'])} - {_fmt(r['p84'])} | {_fmt(r['p02_5'])} - {_fmt(r['p97_5'])} | "
-                     f"{r['kind']} |")
-    lines += ["", "Intervals are central posterior quantiles (16-84% and 2.5-97.5%).", ""]
-    if notes:
-        lines += ["## What the data do and do not constrain", ""] + [f"* {n}" for n in notes] + [""]
-    atomic_write_text(out_dir / "summary.md", "\n".join(lines))
-
-    tex = [r"\begin{table}", r"\centering",
-           rf"\caption{{Posterior medians with 68\% intervals, {header.get('region', '')}.}}",
-           r"\begin{tabular}{llc}", r"\hline", r"Quantity & Unit & Value \\", r"\hline"]
-    for r in t:
-        name = str(r["name"]).replace("_", r"\_")
-        unit = _TEX_UNITS.get(str(r["unit"]), str(r["unit"]))
-        if r["kind"] == "fixed":
-            val = f"${_tex_num(r['median'])}$ (fixed)"
-        else:
-            lo = r["median"] - r["p16"]
-            hi = r["p84"] - r["median"]
-            val = f"${_tex_num(r['median'])}^{{+{_tex_num(hi)}}}_{{-{_tex_num(lo)}}}$"
-        tex.append(f"{name} & {unit} & {val} \\\\")
-    tex += [r"\hline", r"\end{tabular}", r"\end{table}", ""]
-    atomic_write_text(out_dir / "summary.tex", "\n".join(tex))

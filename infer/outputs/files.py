@@ -1,22 +1,30 @@
-"""Writing into output folders safely: atomic files, refusing to clobber another run."""
+"""Writing files safely: atomic replacement (a temporary file in the same folder, then rename).
+
+:func:`save_figure` writes a figure as PNG and PDF through the same writer; matplotlib is
+not imported here (a figure renders itself).
+
+The layout of a fit folder, and the guard that refuses to mix runs in one, live in
+:mod:`infer.outputs.fitfolder`.
+"""
 
 from __future__ import annotations
 
+import io
 import json
 import math
 import os
 import tempfile
-from collections.abc import Mapping
+from collections.abc import Mapping, Sequence
 from pathlib import Path
-from typing import Any
+from typing import TYPE_CHECKING, Any
 
-from ..errors import ChainError, InferError
+from ..errors import InferError
 
-__all__ = ["atomic_write_text", "atomic_write_bytes", "jsonable", "write_json", "prepare_out_dir",
-           "RUN_FILE"]
+if TYPE_CHECKING:  # pragma: no cover - typing only
+    from matplotlib.figure import Figure
 
-#: small JSON file identifying the run a folder holds (catalog + config hash)
-RUN_FILE = "run.json"
+__all__ = ["atomic_write_text", "atomic_write_bytes", "jsonable", "write_json", "render_figure",
+           "save_figure", "PDF_METADATA"]
 
 
 def atomic_write_bytes(path: str | Path, data: bytes) -> None:
@@ -49,6 +57,7 @@ def _umask() -> int:
 
 
 def atomic_write_text(path: str | Path, text: str) -> None:
+    """Write ``text`` (UTF-8) to ``path`` atomically (see :func:`atomic_write_bytes`)."""
     atomic_write_bytes(path, text.encode("utf-8"))
 
 
@@ -73,51 +82,60 @@ def jsonable(obj: Any) -> Any:
 
 
 def write_json(path: str | Path, data: Mapping) -> None:
+    """Write ``data`` as indented JSON atomically; NaN and inf become null (:func:`jsonable`)."""
     atomic_write_text(path, json.dumps(jsonable(data), indent=2, allow_nan=False) + "\n")
 
 
-def prepare_out_dir(out_dir: str | Path, *, run_hash: str, resume: bool) -> bool:
-    """Check that ``out_dir`` may receive this run; create it if needed.
+#: PDF metadata of the package's figures (PNG files keep matplotlib's own)
+PDF_METADATA = {"Creator": "infer"}
 
-    Returns True when the folder was created (so a failed fit may remove it).
 
-    Raises
-    ------
-    ChainError
-        The folder holds another run, holds other files, or the user asked to
-        resume a run that is not there.
+def render_figure(fig: Figure, fmt: str, *, dpi: float,
+                  metadata: Mapping[str, str] | None = None) -> bytes:
+    """The bytes of ``fig`` in format ``fmt`` ("png" or "pdf"), rendered in memory.
+
+    Parameters
+    ----------
+    fig : matplotlib.figure.Figure
+    fmt : str
+        A format matplotlib's ``savefig`` knows.
+    dpi : float
+        Dots per inch (raster formats; also sets the size of raster parts of a PDF).
+    metadata : mapping, optional
+        File metadata passed to ``savefig`` (None: matplotlib's defaults).
     """
-    out = Path(out_dir)
-    if out.exists() and not out.is_dir():
-        raise InferError(f"--out {out}: exists and is not a folder")
-    if not out.exists():
-        if resume:
-            raise ChainError(f"--out {out}: nothing to resume (the folder does not exist); "
-                             f"run without --resume")
-        try:
-            out.mkdir(parents=True)
-        except OSError as exc:
-            raise InferError(f"--out {out}: cannot create the folder ({exc.strerror})") from None
-        return True
-    entries = [p for p in out.iterdir() if not p.name.startswith(".")]
-    if not entries:
-        if resume:
-            raise ChainError(f"--out {out}: nothing to resume (the folder is empty)")
-        return False
-    run_file = out / RUN_FILE
-    if not run_file.exists():
-        raise ChainError(f"--out {out}: the folder is not empty and holds no fit of this package; "
-                         f"choose a new or empty folder")
-    try:
-        held = json.loads(run_file.read_text()).get("run_hash")
-    except (OSError, ValueError, AttributeError):
-        raise ChainError(f"--out {out}: {RUN_FILE} is unreadable; choose a new folder") from None
-    if held != run_hash:
-        raise ChainError(f"--out {out}: the folder holds a different run (other catalog, config or "
-                         f"seed); choose another --out folder")
-    if not resume and (out / "chain.h5").exists():
-        raise ChainError(f"--out {out}: the folder already holds this run; add --resume to "
-                         f"continue it, or choose another --out folder")
-    if not os.access(out, os.W_OK):
-        raise InferError(f"--out {out}: the folder is not writable")
-    return False
+    buf = io.BytesIO()
+    fig.savefig(buf, format=fmt, dpi=dpi, metadata=None if metadata is None else dict(metadata))
+    return buf.getvalue()
+
+
+def save_figure(fig: Figure, folder: str | Path, stem: str, *,
+                formats: Sequence[str] = ("png", "pdf"), dpi: float = 130) -> list[Path]:
+    """Write ``fig`` as ``folder/stem.<fmt>`` for each format, each file atomically.
+
+    Every format is rendered in memory before the first file is replaced, so a failure
+    while drawing leaves all earlier files as they were. PDFs carry :data:`PDF_METADATA`.
+
+    Parameters
+    ----------
+    fig : matplotlib.figure.Figure
+    folder : path
+        An existing folder.
+    stem : str
+        File name without suffix, e.g. ``"corner"``.
+    formats : sequence of {"png", "pdf"}
+        In the order the files are written (and returned).
+    dpi : float
+
+    Returns
+    -------
+    list of Path
+        The files written, in the order of ``formats``.
+    """
+    folder = Path(folder)
+    data = [(folder / f"{stem}.{fmt}",
+             render_figure(fig, fmt, dpi=dpi, metadata=PDF_METADATA if fmt == "pdf" else None))
+            for fmt in formats]
+    for path, content in data:
+        atomic_write_bytes(path, content)
+    return [path for path, _ in data]

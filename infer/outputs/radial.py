@@ -22,10 +22,7 @@ from ..inference.posterior import Posterior
 if TYPE_CHECKING:  # pragma: no cover - typing only
     from matplotlib.figure import Figure
 
-__all__ = ["RadialBand", "radial_band", "radial_figure", "RADIAL_FILE"]
-
-#: base name of the figure in the fit folder
-RADIAL_FILE = "radial"
+__all__ = ["RadialBand", "radial_band", "radial_figure"]
 
 _BAND = "#1f4e79"
 _MASS = "#7b3294"

@@ -2,19 +2,14 @@
 
 :func:`growth_spectrum` evaluates the growth rate of the fastest-growing branch
 on a logarithmic grid of wavelengths that spans the unstable band with margins
-on both sides; :func:`write_spectrum` stores it as CSV or draws it (PNG, PDF).
-Files are written atomically: a temporary file in the same folder, renamed
-over the target only once it is complete.
+on both sides; :func:`spectrum_figure` draws it. Files are written by
+:func:`infer.outputs.spectrum_file.write_spectrum` (CSV, PNG, PDF).
 """
 
 from __future__ import annotations
 
-import os
-import secrets
-from collections.abc import Callable
 from dataclasses import dataclass
-from pathlib import Path
-from typing import IO, Any
+from typing import Any
 
 import astropy.units as u
 import numpy as np
@@ -26,10 +21,7 @@ from .conditions import Conditions, kernel_inputs
 from .predict import Prediction, prediction_from_conditions
 from .resolve import resolve_conditions
 
-__all__ = ["Spectrum", "growth_spectrum", "write_spectrum", "spectrum_figure", "FORMATS"]
-
-#: output suffixes understood by :func:`write_spectrum`
-FORMATS = (".csv", ".png", ".pdf")
+__all__ = ["Spectrum", "growth_spectrum", "spectrum_figure"]
 
 _MARGIN = 2.0          # grid reaches this factor beyond each band edge
 _OPEN_BAND = 100.0     # without rotation: grid up to this many times the shortest growing wavelength
@@ -127,82 +119,6 @@ def _grid(pred: Prediction, n: int) -> np.ndarray:
     lam = np.geomspace(lo, hi, n)
     lam[np.argmin(np.abs(np.log(lam / lam_m)))] = lam_m    # order is kept: nearest point
     return lam
-
-
-# -- output -------------------------------------------------------------------
-
-def write_spectrum(spec: Spectrum, path: str | os.PathLike, *, name: str = "path") -> Path:
-    """Write ``spec`` to ``path``; the suffix picks the format (.csv, .png, .pdf).
-
-    CSV columns: ``wavelength_au,growth_rate_per_yr,growth_time_yr`` (growth time
-    ``inf`` where nothing grows). Figures: growth rate against wavelength on log
-    axes, with the growth time on the right-hand axis, the fastest and the
-    thermal fastest wavelengths marked and the unstable band shaded.
-
-    Parameters
-    ----------
-    spec : Spectrum
-    path : str or path-like
-    name : str
-        How to call ``path`` in error messages (e.g. ``"--out"``).
-
-    Returns
-    -------
-    Path
-        The file written.
-
-    Raises
-    ------
-    InferError
-        Unknown suffix, or the file cannot be written (nothing is left behind).
-    """
-    target = Path(path)
-    suffix = target.suffix.lower()
-    if suffix not in FORMATS:
-        raise InferError(f"{name}: unknown file type {suffix or '(none)'!r} in {str(target)!r}; "
-                         f"use one of {', '.join(FORMATS)}")
-    if suffix == ".csv":
-        _atomic_write(target, lambda fh: fh.write(_csv_text(spec).encode()), name)
-    else:
-        fig = spectrum_figure(spec)
-        _atomic_write(target, lambda fh: fig.savefig(fh, format=suffix[1:], dpi=150), name)
-    return target
-
-
-def _csv_text(spec: Spectrum) -> str:
-    rows = ["wavelength_au,growth_rate_per_yr,growth_time_yr"]
-    for lam, rate, time in zip(spec.wavelength.to_value(u.au), spec.growth_rate.to_value(1 / u.yr),
-                               spec.growth_time.to_value(u.yr), strict=True):
-        rows.append(f"{lam:.10e},{rate:.10e},{time:.10e}")
-    return "\n".join(rows) + "\n"
-
-
-def _atomic_write(target: Path, write: Callable[[IO[bytes]], Any], name: str) -> None:
-    if target.is_dir():
-        raise InferError(f"{name}: {str(target)!r} is a folder; give a file name")
-    tmp = target.with_name(f".{target.name}.{os.getpid()}.{secrets.token_hex(4)}.tmp")
-    try:
-        fh = open(tmp, "xb")    # closed by the "with" below; removed on failure
-    except OSError as exc:
-        raise InferError(f"{name}: cannot write {str(target)!r} ({exc.strerror or exc}); "
-                         f"check that the folder exists and is writable") from None
-    try:
-        with fh:
-            write(fh)
-        os.replace(tmp, target)
-    except OSError as exc:
-        _remove(tmp)
-        raise InferError(f"{name}: cannot write {str(target)!r} ({exc.strerror or exc})") from None
-    except BaseException:
-        _remove(tmp)
-        raise
-
-
-def _remove(path: Path) -> None:
-    try:
-        path.unlink()
-    except OSError:
-        pass
 
 
 def spectrum_figure(spec: Spectrum):

@@ -5,14 +5,13 @@ Used by ``infer fit`` and by each task of ``infer survey``.
 
 from __future__ import annotations
 
-import hashlib
 import shutil
 from dataclasses import dataclass
 from pathlib import Path
 
 import numpy as np
 
-from ..errors import InferError
+from ..catalog.regions import select_region
 from ..inference.config import RunConfig
 from ..inference.model import Model, Observations, build_model
 from ..inference.posterior import (
@@ -20,11 +19,12 @@ from ..inference.posterior import (
     diagnostics,
     identifiability_notes,
     posterior_from_chain,
+    short_chain_error,
     summary_table,
-    write_summary,
 )
 from ..inference.sampler import SampleResult, run_sampler
-from ..outputs.files import RUN_FILE, atomic_write_text, prepare_out_dir, write_json
+from ..outputs.fitfolder import FitFolder, LoadedFit, run_hash
+from ..outputs.summary import write_summary
 
 __all__ = ["FitOutcome", "fit_region", "fit_catalog", "run_hash", "load_fit", "select_region",
            "finish_outputs"]
@@ -41,30 +41,6 @@ class FitOutcome:
     summary: object
     notes: list
     diagnostics: dict
-
-
-def run_hash(catalog_bytes: bytes, region: str, config: RunConfig) -> str:
-    """Hash of what determines a run: the catalog file, the region, the config (not max_steps)."""
-    h = hashlib.sha256()
-    h.update(catalog_bytes)
-    h.update(b"\0" + region.encode() + b"\0")
-    h.update(config.digest().encode())
-    return h.hexdigest()
-
-
-def select_region(regions, name: str | None):
-    """The region to fit: the only one, or the one named ``name``."""
-    if name is None:
-        if len(regions) > 1:
-            names = ", ".join(r.name for r in regions)
-            raise InferError(f"the catalog holds {len(regions)} regions ({names}); pick one with "
-                             f"--region NAME, or fit them all with `infer survey`")
-        return regions[0]
-    for r in regions:
-        if r.name == name:
-            return r
-    raise InferError(f"--region {name}: no such region; the catalog has "
-                     f"{', '.join(r.name for r in regions)}")
 
 
 def fit_catalog(catalog: str | Path, config: RunConfig, out_dir: str | Path, *, resume: bool = False,
@@ -88,22 +64,22 @@ def fit_region(region, config: RunConfig, out_dir: str | Path, *, catalog_bytes:
     saved and the folder was created by this call, the folder is removed.
     """
     out = Path(out_dir)
+    folder = FitFolder(out)
     rh = run_hash(catalog_bytes, region.name, config)
     model = build_model(config, Observations.from_region(region))   # refuse bad input first
-    top = out                       # the outermost folder that prepare_out_dir may create
+    top = out                       # the outermost folder that FitFolder.prepare may create
     while not top.parent.exists() and top.parent != top:
         top = top.parent
-    created = prepare_out_dir(out, run_hash=rh, resume=resume)
+    created = folder.prepare(run_hash=rh, resume=resume)
     try:
-        write_json(out / RUN_FILE, {"run_hash": rh, "region": region.name,
-                                    "source": str(Path(region.source).resolve())})
-        atomic_write_text(out / "config.toml", config.to_toml())
+        folder.write_run_info(run_hash=rh, region=region.name, source=region.source)
+        folder.write_config(config)
         sample = run_sampler(model, names=model.names, prior_draws=model.prior_sample,
-                             options=config.sampler, chain_path=out / "chain.h5", run_hash=rh,
+                             options=config.sampler, chain_path=folder.chain_file, run_hash=rh,
                              resume=resume, progress=progress,
                              info={"region": region.name, "source": str(region.source)})
     except BaseException:
-        if created and not (out / "chain.h5").exists():
+        if created and not folder.has_chain():
             shutil.rmtree(top, ignore_errors=True)   # with the parents made for it
         raise
     return finish_outputs(out, model, sample, region=region, config=config, plots=plots)
@@ -113,6 +89,8 @@ def finish_outputs(out: Path, model: Model, sample: SampleResult, *, region, con
                    plots: bool = True) -> FitOutcome:
     """Posterior, summaries, diagnostics, pointwise log-likelihood and figures from a chain."""
     post = posterior_from_chain(model, sample.chain, sample.tau)
+    if post.n == 0:         # nothing left after burn-in: no summary to write
+        raise short_chain_error(post, what=f"{out}: summary", have=0, needed=1)
     table = summary_table(post, model)
     notes = identifiability_notes(post, model)
     if not sample.converged:
@@ -139,8 +117,9 @@ def finish_outputs(out: Path, model: Model, sample: SampleResult, *, region, con
                        extra={"region": region.name, "n_clumps": len(region.ids),
                               "n_spacings": model.obs.n_spacings,
                               "map": _map_values(model, sample)})
-    write_json(out / "diagnostics.json", diag)
-    _write_pointwise(out, model, post)
+    folder = FitFolder(out)
+    folder.write_diagnostics(diag)
+    _write_pointwise(folder, model, post)
     if plots:
         from ..outputs.figures import write_figures
 
@@ -168,63 +147,21 @@ def _map_values(model: Model, sample: SampleResult) -> dict[str, float]:
     return {n: float(v[n][0]) for n in model.names}
 
 
-def _write_pointwise(out: Path, model: Model, post: Posterior, n_max: int = 2000) -> None:
+def _write_pointwise(folder: FitFolder, model: Model, post: Posterior, n_max: int = 2000) -> None:
     """pointwise.npz: per-observation log-likelihood of (up to n_max) posterior samples."""
-    import io
-
-    from ..outputs.files import atomic_write_bytes
-
     th = post.theta[:: max(1, post.n // n_max)][:n_max]
-    ll = model.pointwise_loglike(th)
-    buf = io.BytesIO()
-    np.savez(buf, loglike=ll, theta=th, labels=np.array(model.obs.labels, dtype=str),
-             names=np.array(model.names, dtype=str))
-    atomic_write_bytes(out / "pointwise.npz", buf.getvalue())
+    folder.write_pointwise(loglike=model.pointwise_loglike(th), theta=th, labels=model.obs.labels,
+                           names=model.names)
 
 
-def load_fit(out_dir: str | Path):
+def load_fit(out_dir: str | Path) -> LoadedFit:
     """Reload a finished (or interrupted) fit folder: (config, model, region, chain data, tau).
+
+    The same as ``FitFolder(out_dir).load()`` (:meth:`infer.outputs.fitfolder.FitFolder.load`).
 
     Raises
     ------
     ChainError
         If the folder, its config or its chain is missing or corrupted.
     """
-    from ..catalog.regions import read_catalog
-    from ..errors import ChainError
-    from ..inference.chainfile import read_chain
-    from ..inference.config import load_config
-    from ..inference.sampler import autocorr_times
-
-    out = Path(out_dir)
-    if not out.is_dir():
-        raise ChainError(f"{out}: no such fit folder")
-    for f in ("config.toml", "chain.h5", RUN_FILE):
-        if not (out / f).exists():
-            raise ChainError(f"{out}: {f} is missing; this is not a complete fit folder "
-                             f"(run `infer fit` again)")
-    try:
-        config = load_config(out / "config.toml")
-    except InferError as exc:
-        raise ChainError(f"{out}: the saved config is unreadable ({exc})") from None
-    chain = read_chain(out / "chain.h5")
-    import json
-
-    try:
-        run = json.loads((out / RUN_FILE).read_text())
-        source = Path(run["source"])
-        region_name = run["region"]
-    except (OSError, ValueError, KeyError, TypeError):
-        raise ChainError(f"{out}: {RUN_FILE} is unreadable") from None
-    if not source.exists():
-        raise ChainError(f"{out}: the catalog {source} it was fitted to is no longer there")
-    regions = read_catalog(source, overrides=dict(config.catalog), spacing=config.model.spacing)
-    region = select_region(regions, region_name)
-    if run_hash(source.read_bytes(), region.name, config) != chain.run_hash:
-        raise ChainError(f"{out}: the catalog {source} changed since the fit; fit again")
-    model = build_model(config, Observations.from_region(region))
-    if chain.iteration == 0:
-        raise ChainError(f"{out}: the chain is empty; resume the fit with `infer fit ... --resume`")
-    tau = (np.asarray(chain.tau_history[-1][1], dtype=float) if chain.tau_history
-           else autocorr_times(chain.chain))
-    return config, model, region, chain, tau
+    return FitFolder(Path(out_dir)).load()
