@@ -1,8 +1,10 @@
+#!/usr/bin/env python3
 """Survey benchmark: eight regions on two local Dask workers against the same fits run one by one.
 
-Run from the project root::
+Run from the project root with the project's interpreter (the virtual environment where
+``infer`` is installed)::
 
-    /work/venv/bin/python benchmarks/survey.py [--regions 8] [--workers 2] [--max-steps 500]
+    python benchmarks/survey.py [--regions 8] [--workers 2] [--max-steps 500]
 
 The demo disk (``catalogs/demo_disk.ecsv``, 8 clumps) is copied into one
 catalog as ``--regions`` groups ``disk-1``, ``disk-2``, ...; each gets its own

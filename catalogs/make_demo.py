@@ -11,7 +11,14 @@ rewrites byte-identical files:
 * ``demo_cloud.ecsv``  -- 30 cores of the sheet-like "Harrowfell" cloud, RA/Dec
   and 1.3 mm fluxes;
 * ``demo_survey.ecsv`` -- six small disks "Sablemoor A" to "Sablemoor F", one
-  ``group`` each, with per-group metadata.
+  ``group`` each, with per-group metadata;
+* ``demo_rings.ecsv``  -- 17 clumps on three rings from 55 to 280 au in the disk of
+  "Orlenhaven IRS 2", whose surface density and temperature fall off as power laws of
+  radius (for ``profile = "power-law"``).
+
+The disk catalogs also state how they were observed: the beam (``beam_major``,
+``beam_minor``, ``beam_pa``) and the detection limit (``mass_limit``), both chosen so
+that every clump of the catalog is resolved and above the limit, as in a real map.
 
 The true conditions go into each file's header (``true_parameters``), together
 with the forward-model values they imply (``derived``, from :func:`infer.physics.predict`).
@@ -57,6 +64,15 @@ SURVEY = {
     "Sablemoor F": ({"surface_density": "70 g/cm2", "temperature": "35 K", "stellar_mass": "1.0 solMass",
                      "radius": "75 au", "mass_to_flux": 1.1, "ionization": 3e-12}, 390, 45, 75, 6),
 }
+#: Orlenhaven IRS 2: conditions at the reference radius, power-law indices, ring radii (au)
+RINGS = {
+    "surface_density": "60 g/cm2", "temperature": "35 K", "stellar_mass": "0.6 solMass",
+    "reference_radius": "100 au", "surface_density_index": 1.5, "temperature_index": 0.5,
+    "mass_to_flux": 2.0, "ionization": 1e-10, "external_pressure": "0 dyn/cm2",
+}
+#: each ring's radius follows the previous one by lambda_m at their mean radius
+RING_RADII = (55.0, 127.34, 280.48)
+RING_CLUMPS = (6, 6, 5)
 SPACING_SCATTER_DEX = 0.1
 MASS_SCATTER_DEX = 0.15
 RADIAL_SCATTER = 0.02          # fractional scatter of the ring radius
@@ -137,6 +153,10 @@ def make_disk(rng) -> Table:
     t.meta.update({
         "object": "Quillmere IRS 1 (invented protostar; demo of the infer package)",
         "distance": f"{dist:g} pc", "inclination": f"{inc:g} deg", "position_angle": f"{pa:g} deg",
+        # the map's beam (27.6 x 20.7 au at 230 pc, well below the 55-81 au spacings) and its
+        # 5-sigma limit, half the lightest clump
+        "beam_major": "0.12 arcsec", "beam_minor": "0.09 arcsec", "beam_pa": "25 deg",
+        "mass_limit": "12 jupiterMass",
         "local_conditions": {k: DISK[k] for k in ("surface_density", "temperature", "stellar_mass",
                                                   "radius", "external_pressure")},
         "true_parameters": _truth(DISK, radial_scatter=RADIAL_SCATTER, position_error="1.5 au",
@@ -240,12 +260,78 @@ def make_survey(rng) -> Table:
     return t
 
 
+def rings_conditions(radius_au) -> dict:
+    """The conditions of Orlenhaven IRS 2 at radii (au): power laws about the reference radius."""
+    r = np.asarray(radius_au, dtype=float)
+    ratio = r / u.Quantity(RINGS["reference_radius"]).to_value(u.au)
+    return {
+        "surface_density": u.Quantity(RINGS["surface_density"]) * ratio ** -RINGS["surface_density_index"],
+        "temperature": u.Quantity(RINGS["temperature"]) * ratio ** -RINGS["temperature_index"],
+        "stellar_mass": RINGS["stellar_mass"], "radius": r * u.au,
+        "mass_to_flux": RINGS["mass_to_flux"], "ionization": RINGS["ionization"],
+        "external_pressure": RINGS["external_pressure"],
+    }
+
+
+def make_rings(rng) -> Table:
+    inc, pa, dist, pos_err = 30.0, 65.0, 160.0, 1.0
+    o = predict(**rings_conditions(RING_RADII))
+    lam = o.wavelength.to_value(u.au)
+    m_frag = o.fragment_mass.to_value(u.M_jup)
+    start = rng.uniform(0, 2 * np.pi)
+    xs, ys, masses, errs = [], [], [], []
+    for radius, n, lam_k, m_k in zip(RING_RADII, RING_CLUMPS, lam, m_frag, strict=True):
+        arcs = lam_k * 10 ** (SPACING_SCATTER_DEX * rng.standard_normal(n - 1))
+        # arcs centred on a common azimuth, so that neighbouring rings face each other
+        phi = start + np.concatenate([[0.0], np.cumsum(arcs / radius)])
+        phi -= 0.5 * (phi[-1] - phi[0])
+        rad = radius * (1 + RADIAL_SCATTER * rng.standard_normal(n))
+        xs.append(rad * np.cos(phi))
+        ys.append(rad * np.sin(phi))
+        mass, mass_err = _masses(rng, n, m_k)
+        masses.append(mass)
+        errs.append(mass_err)
+    xd, yd = np.concatenate(xs), np.concatenate(ys)
+    n = xd.size
+    sx, sy = project_to_sky(xd * u.au, yd * u.au, inclination=inc * u.deg, position_angle=pa * u.deg)
+    sx = sx.value + pos_err * rng.standard_normal(n)
+    sy = sy.value + pos_err * rng.standard_normal(n)
+    t = Table()
+    t["id"] = [f"OH-{k + 1:02d}" for k in range(n)]
+    t["x"] = _r(sx, 5) * u.au
+    t["y"] = _r(sy, 5) * u.au
+    t["pos_err"] = np.full(n, pos_err) * u.au
+    t["mass"] = _r(np.concatenate(masses), 4) * u.M_jup
+    t["mass_err"] = _r(np.concatenate(errs), 3) * u.M_jup
+    t.meta.update({
+        "object": "Orlenhaven IRS 2 (invented protostar; demo of the infer package)",
+        "distance": f"{dist:g} pc", "inclination": f"{inc:g} deg", "position_angle": f"{pa:g} deg",
+        # beam 16 x 12.8 au at 160 pc, below the 40-200 au spacings; limit below every clump
+        "beam_major": "0.1 arcsec", "beam_minor": "0.08 arcsec", "beam_pa": "140 deg",
+        "mass_limit": "10 jupiterMass",
+        "local_conditions": {k: RINGS[k] for k in ("surface_density", "temperature",
+                                                   "reference_radius", "stellar_mass",
+                                                   "external_pressure")},
+        "true_parameters": _truth(RINGS, radial_scatter=RADIAL_SCATTER, position_error="1 au",
+                                  ring_radii=[f"{r:g} au" for r in RING_RADII],
+                                  clumps_per_ring=list(RING_CLUMPS), number_of_clumps=n),
+        "derived": {f"ring {k + 1} at {r:g} au": {"wavelength": f"{lk:.5g} au",
+                                                  "fragment_mass": f"{mk:.5g} jupiterMass",
+                                                  "toomre_q": float(f"{float(qk):.4g}")}
+                    for k, (r, lk, mk, qk) in enumerate(zip(RING_RADII, lam, m_frag,
+                                                            o.toomre_q.value, strict=True))},
+        "generator": f"catalogs/make_demo.py, seed {SEED}",
+    })
+    return t
+
+
 def write_all(out: Path) -> list[Path]:
-    """Generate the three catalogs into ``out``; returns the paths written."""
+    """Generate the four catalogs into ``out``; returns the paths written."""
     out.mkdir(parents=True, exist_ok=True)
     paths = []
     for k, (name, maker) in enumerate((("demo_disk.ecsv", make_disk), ("demo_cloud.ecsv", make_cloud),
-                                       ("demo_survey.ecsv", make_survey))):
+                                       ("demo_survey.ecsv", make_survey),
+                                       ("demo_rings.ecsv", make_rings))):
         table = maker(np.random.default_rng([SEED, k]))
         path = out / name
         table.write(path, format="ascii.ecsv", overwrite=True)
@@ -261,10 +347,13 @@ def _print_truth(paths: list[Path]) -> None:
         for name, m in entries:
             lead = f"  {name}: " if name else "  "
             truth = ", ".join(f"{k}={v}" for k, v in m["true_parameters"].items())
-            d = m["derived"]
             print(f"{lead}true {truth}")
-            print(f"{' ' * len(lead)}-> lambda_m = {d['wavelength']}, M_frag = {d['fragment_mass']}, "
-                  f"Q = {d['toomre_q']}, x_e = {d['ionization']}")
+            d = m["derived"]
+            for where, dd in (d.items() if "wavelength" not in d else [("", d)]):
+                at = f" at {where}" if where else ""
+                print(f"{' ' * len(lead)}-> lambda_m{at} = {dd['wavelength']}, M_frag = "
+                      f"{dd['fragment_mass']}, Q = {dd['toomre_q']}"
+                      + (f", x_e = {dd['ionization']}" if "ionization" in dd else ""))
 
 
 def main(argv=None) -> int:

@@ -24,7 +24,7 @@ __all__ = ["main", "build_parser", "COMMANDS"]
 
 #: sub-command name -> (module in infer.commands, one-line help)
 COMMANDS: dict[str, tuple[str, str]] = {
-    "predict": ("predict", "fastest wavelength, growth time and fragment mass for given conditions"),
+    "predict": ("predict", "fastest-growing wavelength, growth time and fragment mass for given conditions"),
     "spectrum": ("spectrum", "growth rate against wavelength, as CSV or a plot"),
     "check": ("check", "read and validate a clump catalog; spacing and mass statistics"),
     "fit": ("fit", "sample the posterior of a catalog's field and diffusivities"),

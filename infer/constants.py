@@ -36,8 +36,9 @@ M_ION_AMU: float = 29.0
 SIGMA_W_IN: float = 1.69e-9
 #: enhancement of the neutral-ion collision time for helium (from memory)
 HELIUM_FACTOR: float = 1.4
-#: Ohmic diffusivity eta_O = OHM_COEFF * sqrt(T/K) / x_e  cm^2 s^-1
-#: (electron-neutral collisions; 233.92 from c^2 m_e <sigma v>_e / (4 pi e^2))
+#: Ohmic diffusivity eta_O = OHM_COEFF * sqrt(T/K) / x_e  cm^2 s^-1 (electron-neutral
+#: collisions; the published, rounded 234: c^2 m_e <sigma v>_e / (4 pi e^2) with
+#: <sigma v>_e = 8.28e-9 (T/100 K)^1/2 cm^3 s^-1 gives 233.82 with CODATA 2018 constants)
 OHM_COEFF: float = 234.0
 #: cosmic-ray ionization equilibrium rho_i = C sqrt(rho_n), C in g^1/2 cm^-3/2,
 #: for zeta = 1e-17 s^-1 (from memory)

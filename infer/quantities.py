@@ -94,6 +94,15 @@ QUANTITIES: dict[str, QuantityInfo] = {q.name: q for q in (
        allow_zero=True),
     _q("spacing_calibration", "", r"$f_\lambda$", r"$f_\lambda$", "", "spacing calibration"),
     _q("mass_calibration", "", r"$f_M$", r"$f_M$", "", "mass calibration"),
+    # radial profile (model.profile = "power-law"): X(r) = X(r_0) (r / r_0)^-index
+    _q("reference_radius", "au", r"$r_0$", r"$r_0$", "au", "reference radius"),
+    _q("surface_density_index", "", r"$p$", r"$p$", "", "surface-density power-law index",
+       allow_zero=True),
+    _q("temperature_index", "", r"$q$", r"$q$", "", "temperature power-law index", allow_zero=True),
+    _q("mass_to_flux_index", "", r"$i_\mu$", r"$i_\mu$", "", "mass-to-flux power-law index",
+       allow_zero=True),
+    _q("ionization_index", "", r"$i_x$", r"$i_x$", "", "ionization power-law index",
+       allow_zero=True),
     # derived quantities (summary rows)
     _q("field", "mG", r"$B$", r"$B$", "mG", "field strength", log=True, derived=True),
     _q("eta_total", "cm2 / s", r"$\eta_\mathrm{AD}+\eta_\mathrm{O}$",

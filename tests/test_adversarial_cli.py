@@ -1,6 +1,6 @@
 """Every command with garbage input: exit code 2, one line on stderr, no traceback, no output.
 
-The contract (architecture, "Command line"): a user error -- a bad option value,
+The contract (README, "Stable names: commands, JSON keys, files"): a user error -- a bad option value,
 a missing required option, a nonexistent path, a folder instead of a file, a
 binary file named .ecsv, an empty file, NaN or infinite cells, a refused
 overwrite -- exits with code 2 and exactly one line on stderr naming the
@@ -17,8 +17,6 @@ from __future__ import annotations
 import hashlib
 import json
 import shutil
-import subprocess
-import sys
 import time
 from pathlib import Path
 
@@ -26,10 +24,8 @@ import astropy.units as u
 import numpy as np
 import pytest
 from astropy.table import Table
-from hypothesis import HealthCheck, given, settings
-from hypothesis import strategies as st
+from hypothesis_compat import HealthCheck, given, settings, st
 
-from infer.cli import main
 from infer.commands.conditions import OPTIONS
 
 ROOT = Path(__file__).resolve().parents[1]
@@ -41,20 +37,6 @@ needs_survey = pytest.mark.skipif(not HAS_SURVEY, reason="infer/commands/survey.
 FUZZ = settings(deadline=None, derandomize=True, database=None,
                 suppress_health_check=[HealthCheck.too_slow, HealthCheck.function_scoped_fixture])
 N_PREDICT_FUZZ, N_CHECK_FUZZ = 150, 60
-
-
-def run(argv):
-    """main(argv) with stdout and stderr captured; (code, out, err)."""
-    import contextlib
-    import io
-
-    out, err = io.StringIO(), io.StringIO()
-    with contextlib.redirect_stdout(out), contextlib.redirect_stderr(err):
-        try:
-            code = main([str(a) for a in argv])
-        except SystemExit as exc:            # argparse --help/--version only
-            code = exc.code
-    return code, out.getvalue(), err.getvalue()
 
 
 def assert_user_error(code, out, err, needle=""):
@@ -111,11 +93,11 @@ def with_catalog_table(files, line: str) -> Path:
     return p
 
 
-def test_every_contract_command_is_wired():
+def test_every_contract_command_is_wired(cli):
     from infer.cli import COMMANDS as WIRED
 
     assert set(COMMANDS) <= set(WIRED)
-    code, out, err = run([])
+    code, out, err = cli([])
     assert code == 2 and "Traceback" not in out + err
 
 
@@ -188,8 +170,8 @@ PREDICT_CASES = [
 
 @pytest.mark.parametrize("argv, needle", PREDICT_CASES)
 @pytest.mark.parametrize("json_flag", [[], ["--json"]], ids=["text", "json"])
-def test_predict_bad_options(argv, needle, json_flag):
-    assert_user_error(*run(["predict", *argv, *json_flag]), needle)
+def test_predict_bad_options(cli, argv, needle, json_flag):
+    assert_user_error(*cli(["predict", *argv, *json_flag]), needle)
 
 
 @pytest.mark.parametrize("argv", [
@@ -200,8 +182,8 @@ def test_predict_bad_options(argv, needle, json_flag):
     [*BASE, "--mass-to-flux", "inf"],
     [*BASE, "--mass-to-flux", "0.5", "--eta-ad", "1e-30 cm2/s"],
 ])
-def test_predict_extreme_but_representable_values_succeed(argv):
-    code, out, err = run(["predict", *argv, "--json"])
+def test_predict_extreme_but_representable_values_succeed(cli, argv):
+    code, out, err = cli(["predict", *argv, "--json"])
     assert code == 0 and err == "", err
     d = json.loads(out)
     if d["unstable"]:
@@ -219,7 +201,7 @@ VALUE_TEXT = st.one_of(st.text(max_size=30),
 
 @settings(FUZZ, max_examples=N_PREDICT_FUZZ)
 @given(option=st.sampled_from(sorted(OPTIONS)), value=VALUE_TEXT)
-def test_predict_random_option_values(option, value):
+def test_predict_random_option_values(cli, option, value):
     opt = OPTIONS[option][0]
     if opt in BASE:                  # replace the value of a base option
         i = BASE.index(opt)
@@ -228,7 +210,7 @@ def test_predict_random_option_values(option, value):
         argv = ["predict", "--json", *BASE, opt, value]
     if option in ("cosmic_ray_rate", "ionization"):
         argv += ["--mass-to-flux", "1.5"]
-    code, out, err = run(argv)
+    code, out, err = cli(argv)
     if code == 0:
         assert err == "" and isinstance(json.loads(out)["unstable"], bool)
     else:
@@ -257,16 +239,16 @@ def test_predict_random_option_values(option, value):
     (lambda d: [*BASE, "--mass-to-flux", "0.01", "--eta-ad", "1e-300 cm2/s", "--out",
                 d / "x.csv"], "growth time"),
 ])
-def test_spectrum_bad_input_writes_nothing(files, make, needle):
+def test_spectrum_bad_input_writes_nothing(cli, files, make, needle):
     before = snapshot(files)
-    assert_user_error(*run(["spectrum", *make(files)]), needle)
+    assert_user_error(*cli(["spectrum", *make(files)]), needle)
     assert snapshot(files) == before
 
 
-def test_spectrum_failure_leaves_an_existing_file_alone(files, tmp_path):
+def test_spectrum_failure_leaves_an_existing_file_alone(cli, files, tmp_path):
     out = tmp_path / "kept.csv"
     out.write_text("earlier result\n")
-    assert_user_error(*run(["spectrum", "--surface-density", "80 g/cm2", "--temperature", "☃",
+    assert_user_error(*cli(["spectrum", "--surface-density", "80 g/cm2", "--temperature", "☃",
                             "--out", out]), "--temperature")
     assert out.read_text() == "earlier result\n" and [p.name for p in tmp_path.iterdir()] == [
         "kept.csv"]
@@ -298,11 +280,11 @@ CHECK_CASES = [
 
 
 @pytest.mark.parametrize("argv, needle", CHECK_CASES)
-def test_check_bad_input(files, argv, needle):
+def test_check_bad_input(cli, files, argv, needle):
     args = [files / a if (files / a).exists() or a.endswith((".ecsv", ".toml")) else a
             for a in argv]
     for extra in ([], ["--json"]):
-        assert_user_error(*run(["check", *args, *extra]), needle)
+        assert_user_error(*cli(["check", *args, *extra]), needle)
 
 
 @pytest.mark.parametrize("body, needle", [
@@ -325,12 +307,12 @@ def test_check_bad_input(files, argv, needle):
     ('dust_temperature_err = "1e300 K"', "floating-point range"),
     ('distance = "1e300 pc"', "floating-point range"),
 ])
-def test_check_bad_catalog_metadata_in_the_config(files, body, needle):
+def test_check_bad_catalog_metadata_in_the_config(cli, files, body, needle):
     cfg = with_catalog_table(files, body)
-    assert_user_error(*run(["check", files / "flux.csv", "--config", cfg, "--json"]), needle)
+    assert_user_error(*cli(["check", files / "flux.csv", "--config", cfg, "--json"]), needle)
 
 
-def test_check_unicode_and_very_long_ids_survive(tmp_path):
+def test_check_unicode_and_very_long_ids_survive(cli, tmp_path):
     rng = np.random.default_rng(3)
     ids = ["ü☃𝔘-" + "x" * 5000 + str(i) for i in range(5)] + ["\u200b", "名前", "a\tb", "-1"]
     t = Table({"id": ids, "x": rng.normal(0, 50, len(ids)) * u.au,
@@ -338,22 +320,22 @@ def test_check_unicode_and_very_long_ids_survive(tmp_path):
                "mass": rng.uniform(5, 20, len(ids)) * u.M_jup})
     path = tmp_path / "unicode.ecsv"
     t.write(path, format="ascii.ecsv")
-    code, out, err = run(["check", path, "--json"])
+    code, out, err = cli(["check", path, "--json"])
     assert code == 0, err
     d = json.loads(out)
     assert d["ids"] == ids and d["n_clumps"] == len(ids) and d["spacing_count"] == len(ids) - 1
-    code, out, err = run(["check", path])
+    code, out, err = cli(["check", path])
     assert code == 0 and "Traceback" not in out + err
 
 
 @pytest.mark.parametrize("scale", [1e-170, 1e200, 1e300])
-def test_check_tiny_or_huge_coordinates_keep_every_spacing(tmp_path, scale):
+def test_check_tiny_or_huge_coordinates_keep_every_spacing(cli, tmp_path, scale):
     # squared distances of 1e200 au overflow, of 1e-170 au underflow: every edge must stay
     path = tmp_path / "scaled.csv"
     path.write_text("id,x [au],y [au],mass [jupiterMass]\n"
                     + "".join(f"c{i},{x * scale!r},{y * scale!r},1\n"
                               for i, (x, y) in enumerate([(0, 0), (1, 0.1), (0.2, 1.3), (1.5, 1.2)])))
-    code, out, err = run(["check", path, "--json"])
+    code, out, err = cli(["check", path, "--json"])
     assert code == 0, err
     d = json.loads(out)
     assert d["spacing_count"] == 3
@@ -365,10 +347,10 @@ def test_check_tiny_or_huge_coordinates_keep_every_spacing(tmp_path, scale):
 
 @settings(FUZZ, max_examples=N_CHECK_FUZZ)
 @given(data=st.binary(max_size=400), suffix=st.sampled_from([".ecsv", ".csv", ".fits", ".xml"]))
-def test_check_random_bytes(tmp_path, data, suffix):
+def test_check_random_bytes(cli, tmp_path, data, suffix):
     path = tmp_path / f"random{suffix}"
     path.write_bytes(data)
-    code, out, err = run(["check", path, "--json"])
+    code, out, err = cli(["check", path, "--json"])
     if code == 0:
         json.loads(out)
     else:
@@ -412,9 +394,9 @@ FIT_CASES = [
 
 
 @pytest.mark.parametrize("kw, needle", FIT_CASES)
-def test_fit_bad_input_creates_no_folder(files, tmp_path, kw, needle):
+def test_fit_bad_input_creates_no_folder(cli, files, tmp_path, kw, needle):
     out = tmp_path / "deep" / "fit"
-    assert_user_error(*run(fit_argv(files, out, **kw)), needle)
+    assert_user_error(*cli(fit_argv(files, out, **kw)), needle)
     assert not (tmp_path / "deep").exists()
 
 
@@ -425,12 +407,12 @@ def test_fit_bad_input_creates_no_folder(files, tmp_path, kw, needle):
     (dict(extra=["--seed", "4294967296"]), "seed"),
     (dict(), "not empty"),                   # a valid run, but the folder holds other files
 ])
-def test_fit_bad_input_leaves_an_existing_folder_unchanged(files, tmp_path, kw, needle):
+def test_fit_bad_input_leaves_an_existing_folder_unchanged(cli, files, tmp_path, kw, needle):
     out = tmp_path / "mine"
     out.mkdir()
     (out / "notes.txt").write_text("my own file")
     before = snapshot(out)
-    assert_user_error(*run(fit_argv(files, out, **kw)), needle)
+    assert_user_error(*cli(fit_argv(files, out, **kw)), needle)
     assert snapshot(out) == before
 
 
@@ -455,12 +437,12 @@ mass_scatter = 0.1
                    'high = 10 }').replace('"60 g/cm2"', '"1 g/cm2"').replace('"120 au"', '"10 au"'),
      "no starting point"),
 ])
-def test_fit_failing_after_the_folder_was_prepared_removes_it_with_its_parents(files, tmp_path,
+def test_fit_failing_after_the_folder_was_prepared_removes_it_with_its_parents(cli, files, tmp_path,
                                                                                config, needle):
     cfg = tmp_path / "run.toml"
     cfg.write_text(config)
     out = tmp_path / "new" / "deeper" / "fit"
-    assert_user_error(*run(["fit", files / "disk.ecsv", "--config", cfg, "--out", out,
+    assert_user_error(*cli(["fit", files / "disk.ecsv", "--config", cfg, "--out", out,
                             "--quiet", "--no-plots"]), needle)
     assert not (tmp_path / "new").exists()
 
@@ -470,14 +452,14 @@ def test_fit_failing_after_the_folder_was_prepared_removes_it_with_its_parents(f
     (["fit", DEMO], "--config"),
     (["fit", DEMO, "--config", DEMO_CONFIG], "--out"),
 ])
-def test_fit_missing_required_options(argv, needle):
-    assert_user_error(*run(argv), needle)
+def test_fit_missing_required_options(cli, argv, needle):
+    assert_user_error(*cli(argv), needle)
 
 
-def test_fit_out_is_a_file(files):
+def test_fit_out_is_a_file(cli, files):
     target = files / "binary.ecsv"
     before = target.read_bytes()
-    assert_user_error(*run(fit_argv(files, target)), "not a folder")
+    assert_user_error(*cli(fit_argv(files, target)), "not a folder")
     assert target.read_bytes() == before
 
 
@@ -499,10 +481,10 @@ def broken_fit_folder(tmp_path) -> Path:
     (lambda f, t: [f / "a_folder"], "config.toml is missing"),
     (lambda f, t: [broken_fit_folder(t)], "broken"),
 ])
-def test_plot_and_report_on_missing_or_corrupted_folders(files, tmp_path, command, make, needle):
+def test_plot_and_report_on_missing_or_corrupted_folders(cli, files, tmp_path, command, make, needle):
     argv = make(files, tmp_path)
     before = snapshot(Path(argv[0])) if Path(argv[0]).is_dir() else None
-    assert_user_error(*run([command, *argv]), needle)
+    assert_user_error(*cli([command, *argv]), needle)
     if before is not None:
         assert snapshot(Path(argv[0])) == before
 
@@ -524,10 +506,10 @@ def test_plot_and_report_on_missing_or_corrupted_folders(files, tmp_path, comman
     (["report", "{d}", "--compare"], "exactly two"),
     (["report", "{d}", "--out", "x.md"], "--out"),
 ])
-def test_plot_and_report_bad_options(files, argv, needle):
+def test_plot_and_report_bad_options(cli, files, argv, needle):
     d = files / "a_folder"
     before = snapshot(d)
-    assert_user_error(*run([a.replace("{d}", str(d)) for a in argv]), needle)
+    assert_user_error(*cli([a.replace("{d}", str(d)) for a in argv]), needle)
     assert snapshot(d) == before
 
 
@@ -556,20 +538,20 @@ def test_plot_and_report_bad_options(files, argv, needle):
     (lambda f, o: [f / "disk.ecsv", "--out", o], "--config"),
     (lambda f, o: ["--config", f / "run.toml", "--out", o], "CATALOG"),
 ])
-def test_survey_bad_input_creates_no_folder(files, tmp_path, make, needle):
+def test_survey_bad_input_creates_no_folder(cli, files, tmp_path, make, needle):
     out = tmp_path / "survey"
     before = snapshot(files)
-    assert_user_error(*run(["survey", *make(files, out), "--quiet"]), needle)
+    assert_user_error(*cli(["survey", *make(files, out), "--quiet"]), needle)
     assert not out.exists() and snapshot(files) == before
 
 
 @needs_survey
 @pytest.mark.parametrize("catalogs", [["binary.ecsv"], ["empty.ecsv", "nan.csv"]])
-def test_survey_where_every_region_fails_writes_only_its_table(files, tmp_path, catalogs):
+def test_survey_where_every_region_fails_writes_only_its_table(cli, files, tmp_path, catalogs):
     # Documented exception (tests/test_survey.py): the survey table with each region's
     # error is written; no region folder and nothing half-written appears.
     out = tmp_path / "survey"
-    assert_user_error(*run(["survey", *[files / c for c in catalogs], "--config",
+    assert_user_error(*cli(["survey", *[files / c for c in catalogs], "--config",
                             files / "run.toml", "--out", out, "--quiet"]), "every region failed")
     names = {p.name for p in out.iterdir()}
     assert names and all(n.startswith("survey.") for n in names), names
@@ -583,18 +565,16 @@ def test_survey_where_every_region_fails_writes_only_its_table(files, tmp_path, 
     (["predict", "--surface-density", "☃ g/cm2", "--temperature", "nan K"], "--surface-density"),
     (["fit", "{bin}", "--config", "{cfg}", "--out", "{out}"], "binary"),
 ])
-def test_real_entry_point_has_no_traceback(files, tmp_path, argv, needle):
+def test_real_entry_point_has_no_traceback(cli, files, tmp_path, argv, needle):
     out = tmp_path / "fit"
     argv = [a.format(bin=files / "binary.ecsv", cfg=files / "run.toml", out=out) for a in argv]
-    proc = subprocess.run([sys.executable, "-m", "infer", *argv], capture_output=True, text=True,
-                          timeout=120)
-    assert_user_error(proc.returncode, proc.stdout, proc.stderr, needle)
+    assert_user_error(*cli.process(argv, timeout=120), needle)
     assert not out.exists()
 
 
 # ----------------------------------------------------------- 10 000 clumps ----
 
-def test_ten_thousand_clumps(tmp_path):
+def test_ten_thousand_clumps(cli, tmp_path):
     rng = np.random.default_rng(10_000)
     n = 100
     gx, gy = np.meshgrid(np.arange(n), np.arange(n))
@@ -605,7 +585,7 @@ def test_ten_thousand_clumps(tmp_path):
     path = tmp_path / "big.ecsv"
     t.write(path, format="ascii.ecsv")
     start = time.perf_counter()
-    code, out, err = run(["check", path, "--json"])
+    code, out, err = cli(["check", path, "--json"])
     elapsed = time.perf_counter() - start
     print(f"\ninfer check --json on 10 000 clumps: {elapsed:.2f} s")
     assert code == 0, err

@@ -18,8 +18,7 @@ from pathlib import Path
 import pytest
 import tomli_w
 from conftest import BASE_CONFIG
-from hypothesis import HealthCheck, given, settings
-from hypothesis import strategies as st
+from hypothesis_compat import HealthCheck, given, settings, st
 
 from infer.errors import ConfigError
 from infer.inference.config import ModelOptions, RunConfig, SamplerOptions, load_config, parse_config

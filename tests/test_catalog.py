@@ -175,7 +175,9 @@ def test_flux_defaults_are_reported(tmp_path):
     text = " ".join(r.warnings)
     assert "dust_opacity not given" in text and "beta = 1.8" in text
     assert "gas_to_dust not given" in text
-    # power law from the default 0.899 cm2/g at 1.3 mm
+    # power law kappa_0 (nu / nu_0)^beta from the default 0.899 cm2 per g of dust at 1.3 mm
+    # (Ossenkopf & Henning 1994, A&A 291, 943, thin ice mantles at 1e6 cm^-3; value from
+    # memory) with beta = 1.8 (common practice for dense-core dust, no single source)
     assert r.meta["dust_opacity_observed"].to_value(u.cm**2 / u.g) == pytest.approx(
         0.899 * (1.3 / 0.87) ** 1.8, rel=1e-9)
 

@@ -16,8 +16,7 @@ from pathlib import Path
 import astropy.units as u
 import numpy as np
 from astropy.table import Table
-from hypothesis import HealthCheck, given, settings
-from hypothesis import strategies as st
+from hypothesis_compat import HealthCheck, given, settings, st
 
 from infer.catalog.regions import read_catalog
 from infer.errors import CatalogError

@@ -3,13 +3,9 @@
 from __future__ import annotations
 
 import json
-import subprocess
-import sys
 from pathlib import Path
 
 import pytest
-
-from infer.cli import main
 
 DEMO = Path(__file__).resolve().parent.parent / "catalogs"
 KEYS = {"n_clumps", "spacing_count", "spacing_median_au", "spacings_au", "mass_median_mjup",
@@ -33,16 +29,10 @@ radius = {{ value = "80 au" }}
 """
 
 
-def _run(capsys, *argv):
-    rc = main(["check", *map(str, argv)])
-    out, err = capsys.readouterr()
-    return rc, out, err
-
-
 @pytest.mark.parametrize("name,n,count", [("demo_disk.ecsv", 8, 7), ("demo_cloud.ecsv", 30, 29),
                                           ("demo_survey.ecsv", 42, 36)])
-def test_json_on_demo_files(capsys, name, n, count):
-    rc, out, err = _run(capsys, DEMO / name, "--json")
+def test_json_on_demo_files(cli, name, n, count):
+    rc, out, err = cli(["check", DEMO / name, "--json"])
     assert rc == 0, err
     data = json.loads(out)
     assert KEYS <= set(data)
@@ -56,34 +46,34 @@ def test_json_on_demo_files(capsys, name, n, count):
         assert "regions" not in data
 
 
-def test_text_summary(capsys):
-    rc, out, _ = _run(capsys, DEMO / "demo_disk.ecsv")
+def test_text_summary(cli):
+    rc, out, _ = cli(["check", DEMO / "demo_disk.ecsv"])
     assert rc == 0
     for needle in ("8 clumps", "median", "16-84%", "min, max", "au", "M_Jup", "warnings"):
         assert needle in out
 
 
-def test_text_summary_several_regions(capsys):
-    rc, out, _ = _run(capsys, DEMO / "demo_survey.ecsv")
+def test_text_summary_several_regions(cli):
+    rc, out, _ = cli(["check", DEMO / "demo_survey.ecsv"])
     assert rc == 0 and "region Sablemoor A" in out and "all regions" in out
 
 
-def test_nearest_option(capsys):
-    rc, out, _ = _run(capsys, DEMO / "demo_disk.ecsv", "--json", "--spacing", "nearest")
+def test_nearest_option(cli):
+    rc, out, _ = cli(["check", DEMO / "demo_disk.ecsv", "--json", "--spacing", "nearest"])
     assert rc == 0 and json.loads(out)["spacing_count"] == 8
 
 
-def test_config_overrides_and_spacing(capsys, tmp_path):
+def test_config_overrides_and_spacing(cli, tmp_path):
     cfg = tmp_path / "run.toml"
     cfg.write_text(CONFIG.format(spacing="nearest", distance="250 pc"))
-    rc, out, err = _run(capsys, DEMO / "demo_disk.ecsv", "--json", "--config", cfg)
+    rc, out, err = cli(["check", DEMO / "demo_disk.ecsv", "--json", "--config", cfg])
     assert rc == 0, err
     data = json.loads(out)
     assert data["spacing_count"] == 8
     assert data["metadata"]["distance"] == "250 pc"
     assert any("distance" in w and "run config" in w for w in data["warnings"])
     # the command-line option beats the config
-    rc, out, _ = _run(capsys, DEMO / "demo_disk.ecsv", "--json", "--config", cfg, "--spacing", "mst")
+    rc, out, _ = cli(["check", DEMO / "demo_disk.ecsv", "--json", "--config", cfg, "--spacing", "mst"])
     assert json.loads(out)["spacing_count"] == 7
 
 
@@ -103,27 +93,26 @@ def _one_line_error(rc, out, err):
     ("nan.csv", b"id,x [au],y [au],mass [solMass]\na,0,0,1\nb,1,1,nan\n", "id 'b'"),
     ("garbage.fits", b"SIMPLE  = garbage" + bytes(3000), "FITS"),
 ])
-def test_bad_files_exit_2(capsys, tmp_path, name, content, needle):
+def test_bad_files_exit_2(cli, tmp_path, name, content, needle):
     path = tmp_path / name
     path.write_bytes(content)
-    rc, out, err = _run(capsys, path)
+    rc, out, err = cli(["check", path])
     _one_line_error(rc, out, err)
     assert needle in err and name in err
 
 
-def test_missing_file_and_bad_config(capsys, tmp_path):
-    _one_line_error(*_run(capsys, tmp_path / "absent.ecsv"))
+def test_missing_file_and_bad_config(cli, tmp_path):
+    _one_line_error(*cli(["check", tmp_path / "absent.ecsv"]))
     cfg = tmp_path / "bad.toml"
     cfg.write_text("[model\nspacing = 3")
-    rc, out, err = _run(capsys, DEMO / "demo_disk.ecsv", "--config", cfg)
+    rc, out, err = cli(["check", DEMO / "demo_disk.ecsv", "--config", cfg])
     _one_line_error(rc, out, err)
     assert "bad.toml" in err
 
 
-def test_subprocess_has_no_traceback(tmp_path):
+def test_subprocess_has_no_traceback(cli, tmp_path):
     path = tmp_path / "broken.ecsv"
     path.write_bytes(b"# %ECSV 1.0\n\x00\x01garbage")
-    proc = subprocess.run([sys.executable, "-m", "infer", "check", str(path)],
-                          capture_output=True, text=True, timeout=60)
-    assert proc.returncode == 2
-    assert len(proc.stderr.strip().splitlines()) == 1 and "Traceback" not in proc.stderr
+    proc = cli.process(["check", path], timeout=60)
+    assert proc.code == 2
+    assert len(proc.err.strip().splitlines()) == 1 and "Traceback" not in proc.err

@@ -37,10 +37,11 @@ def _fit(cat, cfg, out, *extra):
                  *steps, "--quiet", *extra])
 
 
-def test_fit_writes_the_whole_output_folder(demo, tmp_path, capsys):
-    cat, cfg = demo
-    out = tmp_path / "fit"
-    assert _fit(cat, cfg, out) == 0
+@pytest.mark.slow
+def test_fit_writes_the_whole_output_folder(demo_fit, tmp_path, capsys):
+    # the session's shared fit: `infer fit` with --walkers 16 --max-steps 300, figures on
+    out = demo_fit.path
+    assert demo_fit.result.code == 0
     assert CONTRACT_FILES <= {p.name for p in out.iterdir()}
     t = Table.read(out / "summary.ecsv", format="ascii.ecsv")
     for col in ("name", "unit", "median", "p16", "p84", "p02_5", "p97_5"):
@@ -60,7 +61,8 @@ def test_fit_writes_the_whole_output_folder(demo, tmp_path, capsys):
     assert "NOT CONVERGED" in (out / "summary.md").read_text()
     # no temporary files left
     assert not [p for p in out.iterdir() if p.name.startswith(".") or p.suffix == ".partial"]
-    # infer plot regenerates the figures from the saved chain
+    # infer plot regenerates the figures from the saved chain (in a copy: the fit is shared)
+    out = demo_fit.copy(tmp_path / "fit")
     before = (out / "corner.png").stat().st_mtime_ns
     time.sleep(0.01)
     assert main(["plot", str(out)]) == 0
@@ -109,7 +111,8 @@ def test_bad_inputs_exit_2_with_one_line(demo, tmp_path, capsys, change, message
     assert not out.exists()
 
 
-def test_plot_on_missing_or_corrupted_folder(tmp_path, capsys):
+@pytest.mark.slow
+def test_plot_on_missing_or_corrupted_folder(demo_fit, tmp_path, capsys):
     assert main(["plot", str(tmp_path / "nothing")]) == 2
     assert capsys.readouterr().err.count("\n") == 1
     d = tmp_path / "broken"
@@ -120,13 +123,7 @@ def test_plot_on_missing_or_corrupted_folder(tmp_path, capsys):
     assert main(["plot", str(d)]) == 2
     assert "config is unreadable" in capsys.readouterr().err
     # a valid folder whose chain file is garbage
-    good = tmp_path / "good"
-    cat = tmp_path / "disk.ecsv"
-    shutil.copy(ROOT / "catalogs/demo_disk.ecsv", cat)
-    cfg = tmp_path / "run.toml"
-    cfg.write_text((ROOT / "catalogs/demo_disk.toml").read_text())
-    assert _fit(cat, cfg, good, "--no-plots", "--max-steps", "100") == 0
-    capsys.readouterr()
+    good = demo_fit.copy(tmp_path / "good")
     (good / "chain.h5").write_bytes(b"\x89HDF\r\n garbage")
     listing = sorted((p.name, p.stat().st_mtime_ns) for p in good.iterdir())
     assert main(["plot", str(good)]) == 2

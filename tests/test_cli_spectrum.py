@@ -14,22 +14,12 @@ import numpy as np
 import pytest
 
 from infer import InferError, predict
-from infer.cli import main
 from infer.physics.spectrum import growth_spectrum, write_spectrum
 
-M_H = 1.00784 * u.u          # standard atomic weight of H (IUPAC), physics.md convention
+M_H = 1.00784 * u.u          # standard atomic weight of H (IUPAC), docs/physics.md "Inputs"
 DISK = ["--surface-density", "60 g/cm2", "--temperature", "35 K", "--mass-to-flux", "1.6",
         "--ionization", "1e-10", "--stellar-mass", "0.5 solMass", "--radius", "80 au"]
 ROTATING = ["--surface-density", "50 g/cm2", "--temperature", "30 K", "--kappa", "2e-10 1/s"]
-
-
-def run(argv, capsys):
-    try:
-        code = main(argv)
-    except SystemExit as exc:
-        code = exc.code
-    out, err = capsys.readouterr()
-    return code, out, err
 
 
 def read_csv(path):
@@ -43,11 +33,11 @@ def leftovers(folder):
     return [p for p in os.listdir(folder) if p.endswith(".tmp")]
 
 
-def test_csv_matches_rotating_disk_dispersion_relation(tmp_path, capsys):
+def test_csv_matches_rotating_disk_dispersion_relation(cli, tmp_path):
     # Field-free rotating disk: gamma^2 = -(kappa^2 + c_s^2 k^2 - 2 pi G Sigma k), k = 2 pi/lambda
     # (Toomre 1964, ApJ 139, 1217), evaluated with astropy at the file's wavelengths.
     out = tmp_path / "rotating.csv"
-    code, stdout, err = run(["spectrum", *ROTATING, "--out", str(out), "--points", "300"], capsys)
+    code, stdout, err = cli(["spectrum", *ROTATING, "--out", str(out), "--points", "300"])
     assert code == 0 and err == "" and str(out) in stdout
     header, data = read_csv(out)
     assert header == "wavelength_au,growth_rate_per_yr,growth_time_yr"
@@ -67,11 +57,12 @@ def test_csv_matches_rotating_disk_dispersion_relation(tmp_path, capsys):
     assert not grows[0] and not grows[-1] and grows.sum() > 100
 
 
-def test_csv_magnetized_diffusive_against_numpy_roots(tmp_path, capsys):
-    # physics.md sec. 3 cubic, written out dimensionally with astropy constants and solved
-    # with numpy.roots (reference library) at each wavelength of the file.
+def test_csv_magnetized_diffusive_against_numpy_roots(cli, tmp_path):
+    # the cubic of docs/physics.md ("Dispersion relation"), written out dimensionally with
+    # astropy constants and solved with numpy.roots (reference library) at each wavelength
+    # of the file.
     out = tmp_path / "disk.csv"
-    code, _, _ = run(["spectrum", *DISK, "--out", str(out)], capsys)
+    code, _, _ = cli(["spectrum", *DISK, "--out", str(out)])
     assert code == 0
     _, data = read_csv(out)
     lam, rate, _ = data.T
@@ -100,9 +91,9 @@ def test_csv_magnetized_diffusive_against_numpy_roots(tmp_path, capsys):
 
 
 @pytest.mark.parametrize("suffix,magic", [(".png", b"\x89PNG\r\n\x1a\n"), (".pdf", b"%PDF")])
-def test_figures(tmp_path, capsys, suffix, magic):
+def test_figures(cli, tmp_path, suffix, magic):
     out = tmp_path / f"spectrum{suffix}"
-    code, stdout, err = run(["spectrum", *DISK, "--out", str(out)], capsys)
+    code, stdout, err = cli(["spectrum", *DISK, "--out", str(out)])
     assert code == 0 and err == ""
     assert out.read_bytes()[: len(magic)] == magic
     assert out.stat().st_size > 10_000
@@ -128,10 +119,10 @@ def test_figure_content():
     assert "35 K" in ax.get_title()
 
 
-def test_existing_file_is_replaced_atomically(tmp_path, capsys):
+def test_existing_file_is_replaced_atomically(cli, tmp_path):
     out = tmp_path / "s.csv"
     out.write_text("old contents\n")
-    code, _, _ = run(["spectrum", *ROTATING, "--out", str(out)], capsys)
+    code, _, _ = cli(["spectrum", *ROTATING, "--out", str(out)])
     assert code == 0
     assert out.read_text().startswith("wavelength_au,")
     assert leftovers(tmp_path) == []
@@ -161,23 +152,23 @@ def test_failure_while_writing_leaves_old_file_and_no_temporary(tmp_path, monkey
     (lambda d: d / "missing-folder" / "s.csv", "--out"),
     (lambda d: d, "--out"),                                       # a folder
 ])
-def test_bad_output_path_exits_2(tmp_path, capsys, make_out, option):
+def test_bad_output_path_exits_2(cli, tmp_path, make_out, option):
     target = make_out(tmp_path)
     if target == tmp_path:
         target = tmp_path / "dir.csv"
         target.mkdir()
     before = sorted(os.listdir(tmp_path))
-    code, out, err = run(["spectrum", *ROTATING, "--out", str(target)], capsys)
+    code, out, err = cli(["spectrum", *ROTATING, "--out", str(target)])
     assert code == 2 and out == ""
     lines = err.strip().splitlines()
     assert len(lines) == 1 and option in lines[0] and "Traceback" not in err
     assert sorted(os.listdir(tmp_path)) == before
 
 
-def test_stable_conditions_exit_2_and_write_nothing(tmp_path, capsys):
+def test_stable_conditions_exit_2_and_write_nothing(cli, tmp_path):
     out = tmp_path / "stable.png"
-    code, stdout, err = run(["spectrum", "--surface-density", "20 g/cm2", "--temperature", "20 K",
-                             "--mass-to-flux", "0.7", "--out", str(out)], capsys)
+    code, stdout, err = cli(["spectrum", "--surface-density", "20 g/cm2", "--temperature", "20 K",
+                             "--mass-to-flux", "0.7", "--out", str(out)])
     assert code == 2 and stdout == ""
     lines = err.strip().splitlines()
     assert len(lines) == 1 and "no wavelength grows" in lines[0]
@@ -191,16 +182,16 @@ def test_stable_conditions_exit_2_and_write_nothing(tmp_path, capsys):
     (["--surface-density", "60 g/cm2", "--temperature", "35 K", "--field", "1 mG",
       "--mass-to-flux", "2"], "--field"),
 ])
-def test_bad_conditions_exit_2(tmp_path, capsys, argv, option):
-    code, out, err = run(["spectrum", *argv, "--out", str(tmp_path / "x.csv")], capsys)
+def test_bad_conditions_exit_2(cli, tmp_path, argv, option):
+    code, out, err = cli(["spectrum", *argv, "--out", str(tmp_path / "x.csv")])
     assert code == 2 and out == ""
     lines = err.strip().splitlines()
     assert len(lines) == 1 and option in lines[0] and "Traceback" not in err
     assert os.listdir(tmp_path) == []
 
 
-def test_missing_out_exits_2(capsys):
-    code, _, err = run(["spectrum", *ROTATING], capsys)
+def test_missing_out_exits_2(cli):
+    code, _, err = cli(["spectrum", *ROTATING])
     assert code == 2 and "--out" in err and len(err.strip().splitlines()) == 1
 
 

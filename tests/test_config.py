@@ -11,7 +11,7 @@ from infer.inference.config import load_config, parse_config
 from infer.inference.priors import parse_prior
 
 
-def test_architecture_example_parses(config_dict):
+def test_example_config_parses(config_dict):
     cfg = parse_config(config_dict)
     assert cfg.sampled == ["mass_to_flux", "ionization", "surface_density", "temperature",
                            "spacing_scatter", "mass_scatter"]

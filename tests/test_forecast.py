@@ -59,12 +59,12 @@ def test_uninformative_measurement_changes_nothing():
     assert res.ess_median > 0.99 * N
 
 
-def test_degenerate_reweighting_warns_and_suggests_a_prior():
+def test_degenerate_reweighting_warns_and_suggests_the_measurement_as_data():
     res = forecast({"surface_density": _normal_samples(2.0)}, "column_density", 0.001, seed=0)
     assert res.degenerate
     assert res.ess_median < 100
     assert "too degenerate" in res.warnings[0]
-    assert "prior on surface_density" in res.warnings[0]
+    assert "[measurements] entry surface_density" in res.warnings[0]
     assert "degenerate" in res.sentence()
     assert "Warning" in res.to_markdown()
 

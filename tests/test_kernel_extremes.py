@@ -10,16 +10,17 @@ gravitational pressure pi G Sigma^2 / 2. With every warning turned into an error
 * the results are finite and positive where a mode grows and NaN where none does;
 * the growth rate at the reported wavenumber is the largest real part of the
   roots numpy.roots finds for the cubic (reference library; coefficients from
-  infer.physics.dispersion.coefficients on the dimensionless parameters of physics.md
-  sec. 4, computed here from the cgs inputs);
+  infer.physics.dispersion.coefficients on the dimensionless parameters of docs/physics.md,
+  "Dimensionless form", computed here from the cgs inputs);
 * no wavenumber of a dense log-k scan across the closed-form band grows faster
   than the reported fastest mode;
-* the unstable flag is the closed-form criterion of physics.md sec. 3: with
+* the unstable flag is the closed-form criterion of docs/physics.md ("Unstable band",
+  "Flux freezing"): with
   diffusion Q C_eff / c_s < 1; with flux freezing mu0 > 1 and
   Q < (1 - mu0^-2) / sqrt((C_eff^2 + v_A^2) / c_s^2).
 
 The cgs formulas (sound speed, midplane density, C_eff, v_A, L0, t0) are written
-out here from physics.md secs. 2 and 4 with astropy.constants (reference
+out here from docs/physics.md ("Equilibrium", "Dimensionless form") with astropy.constants (reference
 library), not taken from the package.
 """
 
@@ -39,7 +40,7 @@ EPS = np.finfo(float).eps
 G = const.G.cgs.value
 K_B = const.k_B.cgs.value
 M_H = (1.00784 * u.u).to_value(u.g)     # hydrogen atom, standard atomic weight (IUPAC)
-MU_GAS = 2.33                            # physics.md sec. 2 default
+MU_GAS = 2.33                            # docs/physics.md, "Inputs": default
 AU = const.au.cgs.value
 YR = (1.0 * u.yr).to_value(u.s)
 M_SUN = const.M_sun.cgs.value
@@ -55,7 +56,7 @@ def _logu(rng, lo, hi, n):
 
 
 def sheet(sigma, temp, p_ext, mu0):
-    """c_s^2, C_eff^2 / c_s^2, v_A^2 / c_s^2, L0, t0 from physics.md secs. 2 and 4 (cgs)."""
+    """c_s^2, C_eff^2 / c_s^2, v_A^2 / c_s^2, L0, t0 from docs/physics.md (cgs)."""
     cs2 = K_B * temp / (MU_GAS * M_H)
     self_p = np.pi * G * sigma**2
     rho_c = (0.5 * self_p + p_ext) / cs2
@@ -129,7 +130,7 @@ def run_predict(c, sel):
 
 
 def dimensionless(c, j):
-    """SheetParams of physics.md sec. 4 for the sets j, from the cgs inputs."""
+    """SheetParams of docs/physics.md ("Dimensionless form") for the sets j, from the cgs inputs."""
     return dp.sheet_params(inv_mu2=1.0 / c["mu0"][j] ** 2,
                            p_ext=2.0 * c["p_ext"][j] / (np.pi * G * c["sigma"][j] ** 2),
                            kappa=c["kappa"][j] * c["t0"][j],
@@ -160,7 +161,8 @@ def test_finite_where_unstable_nan_where_stable(sets):
 
 def test_unstable_flag_is_the_closed_form_criterion(sets):
     c, out = sets
-    # physics.md sec. 3: diffusive Q C_eff / c_s < 1; flux-frozen mu0 > 1 and Q < Q_crit,mag
+    # docs/physics.md: diffusive Q C_eff / c_s < 1; flux-frozen mu0 > 1 and Q below the
+    # critical Toomre Q with the field's support
     # (Q and the limits computed here; Keplerian Q from kappa = sqrt(G M / r^3)).
     margin = np.where(c["ideal"], c["q"] / np.where(c["q_lim"] > 0, c["q_lim"], np.nan),
                       c["q"] * np.sqrt(c["ceff2"]))

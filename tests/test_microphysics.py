@@ -1,7 +1,8 @@
 """Microphysics: sound speed, collision time, diffusivities, ionization equilibrium.
 
-Worked values are those of checks.md, each with its source; constants for the
-expected values come from astropy.constants (reference library).
+Worked values are those of docs/checks.md ("Microphysics"), each with the publication
+of its formula; constants for the expected values come from astropy.constants
+(reference library).
 """
 
 from __future__ import annotations
@@ -34,7 +35,7 @@ def rho_of(n_n, mu=2.33):
 # -- sound speed -------------------------------------------------------------
 
 def test_sound_speed_worked_values():
-    # checks.md: c_s(10 K) = 0.1882 km/s for mu_gas = 2.33, 0.1866 km/s for 2.37
+    # docs/checks.md: c_s(10 K) = 0.1882 km/s for mu_gas = 2.33, 0.1866 km/s for 2.37
     # (computed; Kauffmann et al. 2008, A&A 487, 993 for the mean masses).  Half a unit
     # in the last digit.
     assert np.sqrt(sound_speed_sq(10.0)) / 1e5 == pytest.approx(0.1882, abs=5e-5)
@@ -48,7 +49,8 @@ def test_sound_speed_worked_values():
 
 def test_ohmic_worked_value():
     # eta_O = 234 (T/K)^1/2 / x_e cm^2/s: T = 10 K, x_e = 1e-7 -> 7.40e9 cm^2/s
-    # (Lesur, Kunz & Fromang 2014, A&A 566, A56, eq. 14a; checks.md worked value).
+    # (Lesur, Kunz & Fromang 2014, A&A 566, A56, eq. 14a; worked value computed by us,
+    # docs/checks.md).
     assert ohmic_diffusivity(10.0, 1e-7) == pytest.approx(7.40e9, abs=0.005e9)
 
 
@@ -56,7 +58,8 @@ def test_ohmic_coefficient_from_constants():
     # eta_O = c^2 m_e <sigma v>_e / (4 pi e^2 x_e) with <sigma v>_e = 8.28e-9 (T/100 K)^1/2 cm^3/s
     # (Blaes & Balbus 1994, ApJ 421, 163; from memory), i.e. 234 (T/K)^1/2 / x_e as in
     # Lesur, Kunz & Fromang 2014, eq. 14a.  Gaussian units: electron charge in esu.
-    # (With CODATA 2018 constants this is 233.82; checks.md's "233.92" is off by 0.04 %.)
+    # (With the CODATA 2018 constants of astropy this is 233.82; a figure of 233.92 once
+    # noted for it is 0.04 % off. The package keeps the published, rounded 234.)
     c = const.c.cgs.value
     m_e = const.m_e.cgs.value
     e = const.e.esu.value
@@ -80,11 +83,18 @@ def test_ion_neutral_rate_against_independent_fit():
 
 
 def test_collision_time_alfven_speed_and_ambipolar_worked_values():
-    # checks.md worked value: n_n = 1e4 cm^-3, B = 30 uG, n_i = 1.23e-3 cm^-3, m_i = 29 amu:
-    # tau_ni = 7.2e11 s, v_A = 0.43 km/s, eta_AD = 1.3e21 cm^2/s (computed there;
-    # tau_ni = 1.4 ((m_i + m_n)/m_i) / (n_i <sigma w>_in), the 1.4 for helium, from memory).
-    # Note: with m_n = 2.33 m_H the formula gives 7.28e11 s (7.20e11 with m_n = 2 m_H), so
-    # the quoted 7.2e11 is good to about 1 %: tolerance 1.5 %.
+    # Worked value of docs/checks.md ("Microphysics"), computed by us by hand from these
+    # formulas: n_n = 1e4 cm^-3, B = 30 uG, n_i = 1.23e-3 cm^-3, m_i = 29 amu gives
+    # tau_ni = 7.2e11 s, v_A = 0.43 km/s, eta_AD = 1.3e21 cm^2/s. Formulas and sources:
+    # * tau_ni = 1.4 ((m_i + m_n)/m_i) / (n_i <sigma w>_in): the neutral's momentum
+    #   exchange with ions through the drag coefficient <sigma w> / (m_i + m_n) (Draine,
+    #   Roberge & Dalgarno 1983, ApJ 264, 485; from memory), times 1.4 for the inertia of
+    #   helium (from memory); <sigma w>_in = 1.69e-9 cm^3/s as above.
+    # * v_A = B / sqrt(4 pi rho) (Alfven 1942, Nature 150, 405), rho = n_n 2.33 m_H.
+    # * eta_AD = v_A^2 tau_ni (e.g. Wardle 2007, Ap&SS 311, 35; from memory).
+    # With m_n = 2.33 m_H the first formula gives 7.28e11 s (7.20e11 with m_n = 2 m_H), so
+    # the quoted 7.2e11 is good to about 1 %: tolerance 1.5 %. v_A and eta_AD are quoted to
+    # 2 figures: half a unit in the last digit.
     n_n, b_field, n_i = 1e4, 30e-6, 1.23e-3
     tau = collision_time(n_i)
     assert tau == pytest.approx(7.2e11, rel=0.015)
@@ -99,7 +109,8 @@ def test_collision_time_alfven_speed_and_ambipolar_worked_values():
 
 
 def test_alfven_speed_against_plasma_formulary_example():
-    # v_A = B / sqrt(mu_0 rho): B = 0.014 T, n = 5e19 m^-3 protons gives 43 173.870 m/s
+    # v_A = B / sqrt(mu_0 rho) (SI form; Alfven 1942, Nature 150, 405): B = 0.014 T,
+    # n = 5e19 m^-3 protons gives 43 173.870 m/s
     # (a worked example in PlasmaPy's formulary documentation).  That figure is reproduced
     # to 1e-9 when rho counts the neutralizing electrons too, rho = n (m_p + m_e) (m_p alone
     # gives 43 185.6).  The reference is recomputed with astropy in SI, the package's
@@ -119,7 +130,7 @@ def test_alfven_speed_against_plasma_formulary_example():
 def test_cosmic_ray_equilibrium():
     # rho_i = C sqrt(rho_n), C = 3e-16 cm^-3/2 g^1/2 at zeta = 1e-17 s^-1 (Elmegreen 1979,
     # ApJ 232, 729; from memory).  With m_i = 29 m_H: n_i = K sqrt(n_n), K ~ 1.2e-5 cm^-3/2,
-    # x_i ~ 1e-7 at n_n = 1e4 cm^-3 (physics.md sec. 6; K = C sqrt(2.33 m_H) / (29 m_H)
+    # x_i ~ 1e-7 at n_n = 1e4 cm^-3 (docs/physics.md, "Microphysics"; K = C sqrt(2.33 m_H) / (29 m_H)
     # = 1.22e-5 computed).
     n_n = 1e4
     x = cosmic_ray_ionization(rho_of(n_n))
@@ -138,7 +149,8 @@ def test_cosmic_ray_equilibrium():
 # -- through the public API --------------------------------------------------
 
 def test_predict_derives_both_diffusivities_from_ionization():
-    # Chain of physics.md sec. 2 and 6 recomputed here with astropy constants:
+    # Chain of docs/physics.md ("Equilibrium", "Microphysics") recomputed here with astropy
+    # constants:
     # rho_c = pi G Sigma^2 / (2 c_s^2) (Spitzer 1942), n_n = rho_c / (2.33 m_H),
     # tau_ni = 1.4 (29 + 2.33)/29 / (x n_n 1.69e-9), eta_AD = B^2 tau_ni / (4 pi rho_c),
     # eta_O = 234 sqrt(T) / x, B = 2 pi sqrt(G) Sigma / mu0.

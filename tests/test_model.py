@@ -1,12 +1,11 @@
-"""The likelihood of physics note section 7, vectorization, and the never-NaN guarantee."""
+"""The likelihood of docs/physics.md ("Likelihood"), vectorization, and the never-NaN guarantee."""
 
 from __future__ import annotations
 
 import pickle
 
 import numpy as np
-from hypothesis import HealthCheck, given, settings
-from hypothesis import strategies as st
+from hypothesis_compat import HealthCheck, given, settings, st
 from scipy import stats
 
 from infer.inference.config import parse_config

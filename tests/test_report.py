@@ -2,7 +2,7 @@
 
 The growth-rate band is checked against the closed-form flux-frozen growth
 rate of the thin sheet, gamma^2 = 2 pi G Sigma k (1 - mu0^-2) - kappa^2 -
-(c_s^2 + v_A^2) k^2 (physics note, section 3; the non-magnetic limit is the
+(c_s^2 + v_A^2) k^2 (docs/physics.md, "Flux freezing"; the non-magnetic limit is the
 rotating-disk relation of Toomre 1964, ApJ 139, 1217), with constants from
 astropy.constants.
 """
@@ -17,32 +17,9 @@ import astropy.constants as const
 import astropy.units as u
 import numpy as np
 import pytest
-from astropy.table import Table
+from conftest import BASE_CONFIG  # noqa: E402  (the shared example config)
 
 from infer.cli import main
-
-LAMBDA_AU = 50.0
-
-from conftest import BASE_CONFIG  # noqa: E402  (the architecture's example config)
-
-
-def _write_catalog(path: Path, seed: int = 4) -> Path:
-    """Eight clumps on a face-on ring at 80 au, arcs ~50 au, masses ~ Sigma lambda^2."""
-    rng = np.random.default_rng(seed)
-    arcs = LAMBDA_AU * 10 ** rng.normal(0.0, 0.04, 8)
-    phi = np.cumsum(arcs) / 80.0
-    m = 18.0 * 10 ** rng.normal(0.0, 0.08, 8)
-    t = Table()
-    t["id"] = [f"C{i + 1}" for i in range(8)]
-    t["x"] = 80.0 * np.cos(phi) * u.au
-    t["y"] = 80.0 * np.sin(phi) * u.au
-    t["pos_err"] = np.full(8, 1.0) * u.au
-    t["mass"] = m * u.M_jup
-    t["mass_err"] = 0.15 * m * u.M_jup
-    t.meta.update({"object": "Test ring (synthetic)", "distance": "200 pc", "inclination": "0 deg",
-                   "position_angle": "0 deg"})
-    t.write(path, format="ascii.ecsv", overwrite=True)
-    return path
 
 
 def _config(diffusion: str, walkers: int, steps: int, seed: int):
@@ -57,21 +34,20 @@ def _config(diffusion: str, walkers: int, steps: int, seed: int):
 
 
 @pytest.fixture(scope="module")
-def fits(tmp_path_factory):
-    """One tiny fit per diffusion mode (no figures: the report must make them)."""
+def fits(demo_fit, tmp_path_factory):
+    """The session's shared fit (diffusion by ionization, 16 walkers x 300 steps) and one tiny
+    ideal-MHD fit of the same catalog, made here."""
     from infer.pipeline.fit import fit_catalog
 
     root = tmp_path_factory.mktemp("report")
-    cat = _write_catalog(root / "ring.ecsv")
-    out = {}
-    for mode, walkers, steps in (("ionization", 12, 250), ("ideal", 10, 200)):
-        out[mode] = fit_catalog(cat, _config(mode, walkers, steps, seed=2), root / mode,
-                                progress=False, plots=False).out_dir
-    return out
+    ideal = fit_catalog(demo_fit.catalog, _config("ideal", 10, 200, seed=2), root / "ideal",
+                        progress=False, plots=False).out_dir
+    return {"ionization": demo_fit.path, "ideal": ideal}
 
 
 def _copy(src: Path, dst: Path) -> Path:
-    shutil.copytree(src, dst)
+    """A private copy of a fit folder, without figures (the report must make them)."""
+    shutil.copytree(src, dst, ignore=shutil.ignore_patterns("corner.*", "predictive.*"))
     return dst
 
 
@@ -195,6 +171,7 @@ def test_bad_options_exit_2_and_unchanged(fits, tmp_path, capsys, argv, msg):
 
 @pytest.mark.slow
 def test_compare_real_fits_of_two_diffusion_modes(fits, tmp_path, capsys):
+    pytest.importorskip("arviz_stats")    # the comparison's PSIS-LOO (the report extra)
     out = tmp_path / "compare.md"
     rc = main(["report", str(fits["ionization"]), str(fits["ideal"]), "--compare", "--out", str(out)])
     text, err = capsys.readouterr()

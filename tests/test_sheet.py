@@ -18,7 +18,7 @@ from infer.physics import dispersion
 from infer.physics.sheet import CRITICAL_MASS_TO_FLUX, equilibrium
 
 # Mass of a hydrogen atom: standard atomic weight 1.00784 u (IUPAC), the
-# convention of physics.md; astropy has no m_H constant.
+# convention of docs/physics.md ("Inputs"); astropy has no m_H constant.
 M_H = 1.00784 * u.u
 G = const.G
 K_B = const.k_B
@@ -40,8 +40,9 @@ def kappa_for_q(q, sigma, temperature):
 # relation follows in one line from omega^2 = c_s^2 k^2 - 2 pi G Sigma |k|).
 # --------------------------------------------------------------------------
 
-def test_thermal_sheet_worked_value_checks_md():
-    # checks.md worked value: T = 10 K, N(H2) = 1e22 cm^-2, mu_H2 = 2.8, mu_gas = 2.33:
+def test_thermal_sheet_worked_value():
+    # worked value of docs/checks.md ("Thin sheet and disk"), computed by us: T = 10 K,
+    # N(H2) = 1e22 cm^-2, mu_H2 = 2.8, mu_gas = 2.33:
     # lambda_c = 0.0367 pc, lambda_m = 0.0734 pc, e-folding time 0.061 Myr (computed,
     # quoted to 3 and 2 figures: tolerances are half a unit in the last quoted digit).
     out = predict(column_density=1e22 * u.cm**-2, temperature=10 * u.K)
@@ -66,7 +67,8 @@ def test_thermal_sheet_formulas(sigma_cgs, temp_k):
     assert out.wavelength.to_value(u.au) == pytest.approx(2 * lam_c.value, rel=1e-7)
     gamma_max = (np.pi * G * sigma / cs).to(1 / u.yr)
     assert (1 / out.growth_time).to_value(1 / u.yr) == pytest.approx(gamma_max.value, rel=1e-10)
-    # fragment mass: mass of one wavelength-square, Sigma lambda_m^2 (physics.md sec. 5)
+    # fragment mass: mass of one wavelength-square, Sigma lambda_m^2 (docs/physics.md,
+    # "Predicted observables")
     m_sq = (sigma * (2 * lam_c) ** 2).to(u.M_jup)
     assert out.fragment_mass.to_value(u.M_jup) == pytest.approx(m_sq.value, rel=1e-6)
 
@@ -104,7 +106,7 @@ def test_rotating_disk_fastest_mode_and_band(q):
 def test_rotating_disk_growth_rate_at_every_wavenumber():
     # gamma^2 = -(kappa^2 + c_s^2 k^2 - 2 pi G Sigma k) at arbitrary k, through the
     # dimensionless kernel with L0 = c_s^2 / (2 pi G Sigma), t0 = c_s / (2 pi G Sigma)
-    # built here from astropy (physics.md sec. 4).  Without field the diffusivity
+    # built here from astropy (docs/physics.md, "Dimensionless form").  Without field the diffusivity
     # must not matter: the cubic factorizes as (g^2 + D)(g + theta).
     cs = sound_speed(TEMP_T)
     kappa = kappa_for_q(0.7, SIGMA_T, TEMP_T)
@@ -142,7 +144,7 @@ def test_keplerian_epicyclic_frequency():
 # --------------------------------------------------------------------------
 
 def test_critical_mass_to_flux_constant():
-    # 1 / (2 pi sqrt(G)) = 616.05 g cm^-2 G^-1 (checks.md, computed from astropy.constants)
+    # 1 / (2 pi sqrt(G)) = 616.05 g cm^-2 G^-1 (docs/checks.md, computed from astropy.constants)
     ref = 1 / (2 * np.pi * np.sqrt(G.cgs.value))
     assert CRITICAL_MASS_TO_FLUX == pytest.approx(ref, rel=1e-14)
     assert CRITICAL_MASS_TO_FLUX == pytest.approx(616.05, abs=0.005)
@@ -164,7 +166,7 @@ def test_flux_frozen_sheet_does_not_grow_at_or_below_critical(mu0):
 
 
 def _magnetic_terms(sigma, temp, mu0, kappa, k):
-    """D and Lambda of physics.md sec. 3 from astropy constants (P_ext = 0)."""
+    """D and Lambda of docs/physics.md ("Dispersion relation") from astropy constants (P_ext = 0)."""
     cs = sound_speed(temp)
     b_field = 2 * np.pi * np.sqrt(G.cgs.value) * sigma.to_value(u.g / u.cm**2) / mu0   # G
     rho_c = (np.pi * G * sigma**2 / (2 * cs**2)).to(u.g / u.cm**3)
@@ -213,7 +215,7 @@ def test_magnetic_q_criterion(mu0):
     for factor, grows in ((0.999, True), (1.001, False)):
         out = predict(surface_density=SIGMA_T, temperature=TEMP_T, mass_to_flux=mu0,
                       kappa=kappa_for_q(factor * q_crit, SIGMA_T, TEMP_T))
-        assert out.q_crit_mag.value == pytest.approx(q_crit, rel=1e-12)
+        assert out.toomre_q_critical_magnetic.value == pytest.approx(q_crit, rel=1e-12)
         assert bool(out.unstable) is grows
     # with any diffusion the field cannot stop the growth: the criterion is Q < 1 again
     out = predict(surface_density=SIGMA_T, temperature=TEMP_T, mass_to_flux=mu0,
@@ -267,13 +269,13 @@ def test_pressure_bounded_layer_against_hydrostatic_integration(p_tilde):
     sigma_ode = 2 * y_edge * np.sqrt(cs2) * np.sqrt(4 * np.pi * gcgs * rho_c) / (4 * np.pi * gcgs)
     # ODE tolerance 1e-12 relative; 1e-8 leaves room for the event location
     assert sigma_ode == pytest.approx(sigma, rel=1e-8)
-    # and the analytic relation of physics.md sec. 2: rho_c c_s^2 = pi G Sigma^2 / 2 + P_ext
+    # and the analytic relation of docs/physics.md, "Equilibrium": rho_c c_s^2 = pi G Sigma^2 / 2 + P_ext
     assert rho_c * cs2 == pytest.approx(np.pi * gcgs * sigma**2 / 2 + p_ext, rel=1e-13)
 
 
 @pytest.mark.parametrize("p_tilde", [0.0, 0.2, 1.0, 7.0, 100.0])
 def test_effective_sound_speed_and_dimensionless_forms(p_tilde):
-    # physics.md sec. 2: the in-plane pressure is c_s^2 Sigma - 2 P_ext Z0(Sigma) with
+    # docs/physics.md, "Equilibrium": the in-plane pressure is c_s^2 Sigma - 2 P_ext Z0(Sigma) with
     # Z0 = Sigma / (2 rho_c); C_eff^2 is its derivative at fixed P_ext (central difference
     # here, step 1e-4 relative: truncation ~1e-8).  Sec. 4: Z0/L0 = 2/(1+P~),
     # C_eff^2/c_s^2 = (1+3P~)/(1+P~)^2, L0 = c_s^2/(2 pi G Sigma), t0 = c_s/(2 pi G Sigma).
@@ -306,7 +308,7 @@ def test_effective_sound_speed_and_dimensionless_forms(p_tilde):
 
 
 def test_thermal_wavelength_with_external_pressure():
-    # physics.md sec. 5: lambda_T,m = 2 C_eff^2 / (G Sigma).  With only thermal pressure
+    # docs/physics.md, "Predicted observables": lambda_T = 2 C_eff^2 / (G Sigma).  With only thermal pressure
     # and self-gravity (no field, no rotation) the fastest mode of D = C^2 k^2 - k is
     # k = 1/(2 C^2) in units of 1/L0, so the predicted wavelength must equal it.
     sigma, temp = 20 * u.g / u.cm**2, 30 * u.K

@@ -3,7 +3,8 @@ bad regions are recorded, finished regions skipped, lost workers' regions refitt
 
 Chains are tiny (12 walkers, 200 steps) so the file runs in a few minutes on two cores; the
 chains never converge at that length, which the survey records as ``converged = False``
-(not a failure).
+(not a failure). The tests on the cluster and sequential fixtures (about 20 s to build) are
+marked slow; only the cluster needs the survey extra (dask.distributed).
 """
 
 from __future__ import annotations
@@ -37,8 +38,6 @@ from infer.pipeline.survey import (
     run_survey,
     survey_table,
 )
-
-pytest.importorskip("dask.distributed")
 
 ROOT = Path(__file__).resolve().parents[1]
 DEMO = ROOT / "catalogs" / "demo_survey.ecsv"
@@ -117,6 +116,8 @@ def _steps(folder: Path) -> int:
 def survey(catalogs, config, tmp_path_factory):
     """The mixed catalog surveyed on a local cluster of two worker processes, one of which is
     killed (SIGKILL) once a region has checkpointed a block of its chain."""
+    pytest.importorskip("dask.distributed")
+    pytest.importorskip("psutil")         # installed with distributed; finds the workers
     out = tmp_path_factory.mktemp("survey")
     outcome: dict = {}
 
@@ -152,6 +153,7 @@ def _assert_same_chains(out: Path, sequential) -> None:
 
 # ------------------------------------------------------------- on a cluster ----
 
+@pytest.mark.slow
 def test_parallel_survey_equals_sequential_fits(survey, sequential):
     out, result, _ = survey
     _assert_same_chains(out, sequential)
@@ -161,6 +163,7 @@ def test_parallel_survey_equals_sequential_fits(survey, sequential):
     assert not [p.name for p in out.iterdir() if p.name.startswith(".")]  # no partial left
 
 
+@pytest.mark.slow
 def test_bad_region_is_recorded_and_the_others_finish(survey):
     out, result, _ = survey
     t = Table.read(out / "survey.ecsv", format="ascii.ecsv")
@@ -177,6 +180,7 @@ def test_bad_region_is_recorded_and_the_others_finish(survey):
     assert not any(good["converged"]) and set(good["steps"]) == {STEPS}
 
 
+@pytest.mark.slow
 def test_table_columns_units_and_values(survey, config):
     out, _, _ = survey
     t = Table.read(out / "survey.ecsv", format="ascii.ecsv")
@@ -208,6 +212,7 @@ def test_table_columns_units_and_values(survey, config):
         assert (out / fig).stat().st_size > 5000
 
 
+@pytest.mark.slow
 def test_regions_get_their_seed_and_local_conditions(survey, catalogs):
     out, _, _ = survey
     truth = Table.read(DEMO, format="ascii.ecsv").meta["groups"]
@@ -226,6 +231,7 @@ def test_regions_get_their_seed_and_local_conditions(survey, catalogs):
             float(local["surface_density"].split()[0]))
 
 
+@pytest.mark.slow
 def test_rerun_skips_finished_regions(survey, catalogs, config):
     out, _, _ = survey
     stamps = {f: (out / f / "chain.h5").stat().st_mtime_ns for f in FOLDERS}
@@ -237,6 +243,7 @@ def test_rerun_skips_finished_regions(survey, catalogs, config):
     assert len(again.table) == 5
 
 
+@pytest.mark.slow
 def test_raised_max_steps_continues_a_finished_chain(survey, catalogs, config, tmp_path):
     """A finished, unconverged region is continued (not refitted) when max_steps grows."""
     from infer.pipeline.survey import _fit_task, _Task
@@ -256,6 +263,7 @@ def test_raised_max_steps_continues_a_finished_chain(survey, catalogs, config, t
     assert sorted(p.name for p in tmp_path.iterdir()) == [FOLDERS[0]]
 
 
+@pytest.mark.slow
 def test_lost_worker_region_is_refitted(survey, sequential):
     """The survey fixture killed one of the two workers mid-chain: the scheduler reran its
     task, and every region still ends with the chain of an uninterrupted sequential fit."""
@@ -265,6 +273,7 @@ def test_lost_worker_region_is_refitted(survey, sequential):
     _assert_same_chains(out, sequential)
 
 
+@pytest.mark.slow
 def test_interrupted_region_resumes_from_its_checkpoint(catalogs, config, sequential, tmp_path):
     """A partial folder left by a lost task is continued from its checkpoint, to the same chain."""
     from infer.pipeline.survey import _fit_task, _Task

@@ -15,8 +15,7 @@ import warnings
 import astropy.units as u
 import numpy as np
 import pytest
-from hypothesis import HealthCheck, given, settings
-from hypothesis import strategies as st
+from hypothesis_compat import HealthCheck, given, settings, st
 
 from infer.errors import InferError
 from infer.units import dimensionless, parse_quantity, to_cgs

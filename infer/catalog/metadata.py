@@ -41,19 +41,31 @@ META_UNITS: dict[str, u.UnitBase] = {
     "opacity_wavelength": u.mm,
     "opacity_index": u.dimensionless_unscaled,
     "gas_to_dust": u.dimensionless_unscaled,
+    # how the catalog was observed (selection): beam FWHM and orientation, detection limit,
+    # searched area (a solid angle or a projected area on the sky)
+    "beam_major": u.arcsec,
+    "beam_minor": u.arcsec,
+    "beam_pa": u.deg,
+    "mass_limit": u.solMass,
+    "flux_limit": u.mJy,
+    "area": u.arcsec**2,
 }
 #: keys accepted in the run config's [catalog] table
 OVERRIDE_KEYS: tuple[str, ...] = (*META_UNITS, "units", "exclude")
 
 _SPECTRAL = {"wavelength", "frequency", "opacity_wavelength"}
 _POSITIVE = {"distance", "wavelength", "frequency", "dust_temperature", "dust_opacity",
-             "opacity_wavelength", "gas_to_dust"}
+             "opacity_wavelength", "gas_to_dust", "beam_major", "beam_minor", "mass_limit",
+             "flux_limit", "area"}
 _NON_NEGATIVE = {"dust_temperature_err", "dust_opacity_err"}
 _EXAMPLE = {"distance": "'140 pc'", "inclination": "'35 deg'", "position_angle": "'120 deg'",
             "center_ra": "'83.1 deg'", "center_dec": "'-5.4 deg'", "wavelength": "'1.3 mm'",
             "frequency": "'230 GHz'", "dust_temperature": "'20 K'", "dust_temperature_err": "'3 K'",
             "dust_opacity": "'0.9 cm2/g'", "dust_opacity_err": "'0.2 cm2/g'",
-            "opacity_wavelength": "'1.3 mm'", "opacity_index": "1.8", "gas_to_dust": "100"}
+            "opacity_wavelength": "'1.3 mm'", "opacity_index": "1.8", "gas_to_dust": "100",
+            "beam_major": "'0.12 arcsec'", "beam_minor": "'0.09 arcsec'", "beam_pa": "'25 deg'",
+            "mass_limit": "'10 jupiterMass'", "flux_limit": "'0.5 mJy'",
+            "area": "'4 arcsec2' (or a projected area such as '5e5 au2')"}
 
 
 def _parse(key: str, value: Any, *, source: str, where: str) -> Any:
@@ -66,6 +78,8 @@ def _parse(key: str, value: Any, *, source: str, where: str) -> Any:
         if key in ("center_ra", "center_dec"):
             q = Angle(value, unit=u.deg) if not isinstance(value, u.Quantity) else Angle(value)
             out: Any = u.Quantity(q.to(u.deg))
+        elif key == "area":
+            out = _area(value, label)
         elif unit == u.dimensionless_unscaled:
             out = float(value.to_value(unit) if isinstance(value, u.Quantity) else value)
         else:
@@ -94,6 +108,21 @@ def _parse(key: str, value: Any, *, source: str, where: str) -> Any:
     if key == "inclination" and not 0 <= v <= 180:
         raise CatalogError(f"{label}: must lie between 0 deg (face-on) and 180 deg, got {value!r}")
     return out
+
+
+def _area(value: Any, label: str) -> u.Quantity:
+    """A searched area: a solid angle (kept in arcsec2) or a projected area (kept in au2)."""
+    if isinstance(value, (int, float, np.number)):
+        raise CatalogError(f"{label}: {value!r} has no unit; give e.g. {_EXAMPLE['area']}")
+    try:
+        q = u.Quantity(value)
+    except (TypeError, ValueError):
+        raise CatalogError(f"{label}: cannot read {value!r}; give e.g. {_EXAMPLE['area']}") from None
+    for target in (u.arcsec**2, u.au**2):
+        if q.unit.is_equivalent(target):
+            return q.to(target)
+    raise CatalogError(f"{label}: {value!r} is neither a solid angle nor an area; give e.g. "
+                       f"{_EXAMPLE['area']}")
 
 
 def _same(a: Any, b: Any) -> bool:

@@ -42,6 +42,7 @@ from . import geometry
 from .columns import Cells, column_layout, column_values, is_kind
 from .dustmass import dust_mass
 from .geometry import SPACING_METHODS
+from .limits import selection_limits
 from .metadata import OVERRIDE_KEYS, dust_settings, resolve_metadata
 from .read import read_table
 from .summary import summarize
@@ -92,6 +93,15 @@ class Region:
         Their errors (zeros without position errors).
     mass_from_flux : bool
         Whether the masses were computed from continuum fluxes.
+    spacing_min : Quantity [au], shape (E,), or None
+        Shortest disk-plane length the beam resolves along each spacing (metadata
+        ``beam_major``, ``beam_minor``, ``beam_pa``; see :mod:`infer.catalog.limits`).
+    beam_extent : Quantity [au], shape (E,), or None
+        The beam's FWHM on the sky along each spacing.
+    mass_limit : Quantity [solMass] or None
+        Detection limit (``mass_limit``, or ``flux_limit`` through the dust settings).
+    area : Quantity [au2] or None
+        Searched area in the disk plane (``area``, deprojected).
     """
 
     name: str
@@ -113,9 +123,18 @@ class Region:
     sky_x_err: u.Quantity | None = None
     sky_y_err: u.Quantity | None = None
     mass_from_flux: bool = False
+    spacing_min: u.Quantity | None = None
+    beam_extent: u.Quantity | None = None
+    mass_limit: u.Quantity | None = None
+    area: u.Quantity | None = None
 
     def __len__(self) -> int:
         return len(self.ids)
+
+    @property
+    def radii(self) -> u.Quantity:
+        """Disk-plane distance of each clump from the star (the x, y origin), au (N,)."""
+        return np.hypot(self.x.to_value(u.au), self.y.to_value(u.au)) * u.au
 
 
 # ---------------------------------------------------------------- region ----
@@ -269,6 +288,10 @@ def _region(cells, lay, vals, rows, name, group, overrides, spacing, excluded, n
                 temperature_err=dust["dust_temperature_err"],
                 opacity_err=dust["dust_opacity_observed_err"])
     _representable(src, group, "masses", masses.value, mass_err.value, positive=masses.value)
+    limits = selection_limits(meta, sky_x=sx * u.au, sky_y=sy * u.au, pairs=sp.pairs,
+                              spacings=sp.lengths, masses=masses,
+                              dust=dust if lay.masses != "mass" else None, source=src, group=group)
+    notes += limits.notes
     meta.update({k: v for k, v in extras.items() if k not in meta})
     return Region(
         name=name, source=src, ids=tuple(ids), x=dx.to(u.au), y=dy.to(u.au),
@@ -276,6 +299,8 @@ def _region(cells, lay, vals, rows, name, group, overrides, spacing, excluded, n
         masses=masses, mass_errors=mass_err, meta=meta, warnings=tuple(notes),
         excluded=tuple(excluded), spacing_method=spacing, sky_x=sx * u.au, sky_y=sy * u.au,
         sky_x_err=ex * u.au, sky_y_err=ey * u.au, mass_from_flux=lay.masses == "flux",
+        spacing_min=limits.spacing_min, beam_extent=limits.beam_extent,
+        mass_limit=limits.mass_limit, area=limits.area,
     )
 
 

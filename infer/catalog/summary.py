@@ -44,6 +44,30 @@ def _jsonable(value: Any) -> Any:
     return str(value)
 
 
+def _selection(r: Region, sp: np.ndarray, m: np.ndarray) -> dict[str, Any]:
+    """Beam, detection limit and area, and how many catalog entries fall below the limits."""
+    meta = r.meta
+    out: dict[str, Any] = {"beam": None, "beam_extent_au": None, "resolvable_au": None,
+                           "spacings_below_beam": None, "mass_limit_mjup": None,
+                           "masses_below_limit": None, "area_au2": None}
+    if r.spacing_min is not None:
+        minor = meta.get("beam_minor", meta["beam_major"])
+        out["beam"] = {"major_arcsec": float(meta["beam_major"].to_value(u.arcsec)),
+                       "minor_arcsec": float(minor.to_value(u.arcsec)),
+                       "pa_deg": float(meta.get("beam_pa", 0 * u.deg).to_value(u.deg))}
+        smin = r.spacing_min.to_value(u.au)
+        out["beam_extent_au"] = r.beam_extent.to_value(u.au).tolist()
+        out["resolvable_au"] = smin.tolist()
+        out["spacings_below_beam"] = int(np.sum(sp <= smin))
+    if r.mass_limit is not None:
+        lim = float(r.mass_limit.to_value(u.M_jup))
+        out["mass_limit_mjup"] = lim
+        out["masses_below_limit"] = int(np.sum(m <= lim))
+    if r.area is not None:
+        out["area_au2"] = float(r.area.to_value(u.au**2))
+    return out
+
+
 def _region_summary(r: Region) -> dict[str, Any]:
     sp = r.spacings.to_value(u.au)
     m = r.masses.to_value(u.M_jup)
@@ -57,6 +81,7 @@ def _region_summary(r: Region) -> dict[str, Any]:
     out["masses_mjup"] = m.tolist()
     out["mass_errors_mjup"] = r.mass_errors.to_value(u.M_jup).tolist()
     out["mass_from_flux"] = r.mass_from_flux
+    out.update(_selection(r, sp, m))
     out["metadata"] = _jsonable(r.meta)
     out["warnings"] = list(r.warnings)
     out["excluded"] = list(r.excluded)

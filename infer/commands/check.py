@@ -94,12 +94,31 @@ def _block(d: dict[str, Any], indent: str = "  ") -> list[str]:
         f"{_g(d['mass_median_mjup'] * (u.M_jup.to(u.solMass)))} M_sun)",
         f"{indent}  min, max             {_g(d['mass_min_mjup'])}, {_g(d['mass_max_mjup'])} M_Jup",
     ]
+    lines += _selection_lines(d, indent)
     meta = d.get("metadata", {})
     known = [k for k in ("distance", "inclination", "position_angle", "wavelength",
                          "dust_temperature", "dust_opacity_observed", "gas_to_dust") if k in meta]
     if known:
         lines.append(f"{indent}metadata               "
                      + ", ".join(f"{k} {meta[k]}" for k in known))
+    return lines
+
+
+def _selection_lines(d: dict[str, Any], indent: str) -> list[str]:
+    """Beam, detection limit and area, with the catalog entries below them."""
+    lines = []
+    beam = d.get("beam")
+    if beam:
+        ext = d["beam_extent_au"]
+        lines.append(f"{indent}beam                   {_g(beam['major_arcsec'])} x "
+                     f"{_g(beam['minor_arcsec'])} arcsec at PA {_g(beam['pa_deg'])} deg "
+                     f"({_g(min(ext))}-{_g(max(ext))} au along the spacings); "
+                     f"{d['spacings_below_beam']} spacing(s) below it")
+    if d.get("mass_limit_mjup") is not None:
+        lines.append(f"{indent}detection limit        {_g(d['mass_limit_mjup'])} M_Jup; "
+                     f"{d['masses_below_limit']} mass(es) at or below it")
+    if d.get("area_au2") is not None:
+        lines.append(f"{indent}searched area          {_g(d['area_au2'])} au2 (disk plane)")
     return lines
 
 

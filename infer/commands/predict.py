@@ -60,6 +60,9 @@ def format_text(d: dict) -> str:
     lines.append(f"  mass-to-flux ratio          {_fmt(d['mass_to_flux'])}  (critical = 1)")
     lines.append(f"  field strength              {_fmt(d['field_mG'], 'mG')}")
     lines.append(f"  Toomre Q                    {_fmt(d['toomre_q'])}")
+    if d.get("toomre_q_critical_magnetic") is not None:
+        lines.append(f"  critical Q, field support   {_fmt(d['toomre_q_critical_magnetic'])}"
+                     "   (flux frozen: grows only below it)")
     lines.append(f"  eta_AD, eta_Ohm             {_fmt(d['eta_ad_cm2_s'], 'cm2/s')}, "
                  f"{_fmt(d['eta_ohm_cm2_s'], 'cm2/s')}")
     if d.get("ionization") is not None:

@@ -31,10 +31,13 @@ __all__ = ["LooResult", "Comparison", "psis_loo", "compare_loo", "compare_fits",
            "load_pointwise", "K_WARN", "MIN_DELTA", "N_SE"]
 
 #: Pareto k above which an observation's importance-sampling estimate is unreliable
+#: (Vehtari, Gelman & Gabry 2017, Stat. Comput. 27, 1413; Vehtari et al. 2024, JMLR 25(72), 1,
+#: whose sample-size-dependent bound min(1 - 1/log10(S), 0.7) is 0.7 for S > 2154 draws)
 K_WARN = 0.7
-#: an |elpd difference| below this is never called meaningful ...
+#: an |elpd difference| below this is never called meaningful (the "smaller than 4" guidance
+#: of Sivula, Magnusson, Matamoros & Vehtari, arXiv:2008.10296) ...
 MIN_DELTA = 4.0
-#: ... nor one within this many standard errors of zero
+#: ... nor one within this many standard errors of zero (common practice)
 N_SE = 2.0
 
 
@@ -174,9 +177,11 @@ class Comparison:
                   f"the stored pointwise log-likelihoods ({a.n_samples} and {b.n_samples} posterior "
                   "samples). elpd_loo is the expected log predictive density of each observation "
                   "(clump spacing or mass) when it is left out, summed; higher is better. A "
-                  f"difference is called meaningful only when it exceeds both {MIN_DELTA:g} and "
-                  f"{N_SE:g} standard errors. Pareto k > {K_WARN:g} marks observations whose "
-                  "leave-one-out estimate is unreliable.", ""]
+                  f"difference is called meaningful only when it exceeds both {MIN_DELTA:g} (the "
+                  "guidance of Sivula et al., arXiv:2008.10296) and "
+                  f"{N_SE:g} standard errors (common practice). Pareto k > {K_WARN:g} marks "
+                  "observations whose leave-one-out estimate is unreliable (Vehtari et al. "
+                  "2017).", ""]
         return "\n".join(lines)
 
     def to_text(self) -> str:

@@ -20,6 +20,8 @@ import numpy as np
 
 from ..errors import ConfigError
 from ..units import parse_quantity
+from .measurements import Measurement, parse_measurements
+from .parameters import LINEAR, parse_signed_prior
 from .priors import PARAMETERS, Prior, parse_prior
 
 __all__ = [
@@ -33,6 +35,13 @@ __all__ = [
 ]
 
 DIFFUSION_MODES = ("ionization", "free", "ideal")
+#: values of [model] selection
+SELECTION_MODES = ("auto", "off")
+#: values of [model] profile
+PROFILES = ("local", "power-law")
+#: priors of the radial profile (profile = "power-law" only)
+PROFILE_PRIORS = ("reference_radius", "surface_density_index", "temperature_index",
+                  "mass_to_flux_index", "ionization_index")
 #: more walkers than this is a typo, not a run (the sampler's arrays would not fit in memory)
 MAX_WALKERS = 100_000
 #: the sampler allocates check_every steps of the chain at once
@@ -71,6 +80,13 @@ class ModelOptions:
     growth_constraint : {"soft", "hard"}
     growth_width_dex : float
         Width of the soft (log-normal CDF) constraint, dex.
+    selection : {"auto", "off"}
+        "auto": model the catalog's beam, detection limit and searched area when it states
+        them (truncated likelihood terms, expected number of clumps); "off": ignore them.
+    profile : {"local", "power-law"}
+        "local": one set of conditions for the whole region (at ``radius``); "power-law":
+        surface density, temperature (and optionally mass-to-flux ratio and ionization) are
+        power laws of radius about ``reference_radius``, rotation Keplerian at each clump.
     """
 
     diffusion: str = "ionization"
@@ -82,6 +98,8 @@ class ModelOptions:
     growth_time_max: float | None = None
     growth_constraint: str = "soft"
     growth_width_dex: float = 0.2
+    selection: str = "auto"
+    profile: str = "local"
 
 
 @dataclass(frozen=True)
@@ -127,6 +145,7 @@ class RunConfig:
     sampler: SamplerOptions
     catalog: Mapping[str, Any] = field(default_factory=dict)
     source: str = "<config>"
+    measurements: Mapping[str, Measurement] = field(default_factory=dict)
 
     @property
     def sampled(self) -> list[str]:
@@ -138,12 +157,15 @@ class RunConfig:
         m = {k: v for k, v in self.model.__dict__.items() if v is not None}
         if self.model.growth_time_max is not None:
             m["growth_time_max"] = f"{self.model.growth_time_max:.17g} yr"
-        return {
+        out = {
             "model": m,
             "catalog": dict(self.catalog),
             "priors": {n: self.priors[n].to_config() for n in PARAMETERS if n in self.priors},
             "sampler": dict(self.sampler.__dict__),
         }
+        if self.measurements:
+            out["measurements"] = {k: v.to_config() for k, v in self.measurements.items()}
+        return out
 
     def to_toml(self) -> str:
         import tomli_w
@@ -242,10 +264,10 @@ def parse_config(data: Mapping[str, Any], *, source: str = "<config>") -> RunCon
     """Validate config data (as from :func:`tomllib.loads`)."""
     if not isinstance(data, Mapping):
         raise ConfigError("the config must be a TOML document of tables")
-    unknown = set(data) - {"model", "priors", "sampler", "catalog"}
+    unknown = set(data) - {"model", "priors", "sampler", "catalog", "measurements"}
     if unknown:
         raise ConfigError(f"unknown table(s) {', '.join(sorted(map(str, unknown)))}; "
-                          f"use [model], [catalog], [priors], [sampler]")
+                          f"use [model], [catalog], [priors], [measurements], [sampler]")
     model = _parse_model(_table(data, "model"))
     catalog = _parse_catalog(_table(data, "catalog"))
     priors = _parse_priors(_table(data, "priors"), model)
@@ -268,7 +290,9 @@ def parse_config(data: Mapping[str, Any], *, source: str = "<config>") -> RunCon
         else:
             kw[k] = _float(f"sampler.{k}", v)
     s = replace(s, **kw)
-    cfg = RunConfig(model=model, priors=priors, sampler=s, catalog=catalog, source=source)
+    measurements = parse_measurements(_table(data, "measurements"))
+    cfg = RunConfig(model=model, priors=priors, sampler=s, catalog=catalog, source=source,
+                    measurements=measurements)
     _check_sampler(s, len(cfg.sampled))
     return cfg
 
@@ -306,6 +330,10 @@ def _parse_model(tab: dict[str, Any]) -> ModelOptions:
             kw[k] = _choice(where, v, ("square", "disk"))
         elif k == "growth_constraint":
             kw[k] = _choice(where, v, ("soft", "hard"))
+        elif k == "selection":
+            kw[k] = _choice(where, v, SELECTION_MODES)
+        elif k == "profile":
+            kw[k] = _choice(where, v, PROFILES)
         elif k in ("use_spacings", "use_masses"):
             kw[k] = _bool(where, v)
         elif k in ("mu_gas", "growth_width_dex"):
@@ -366,6 +394,12 @@ def _parse_priors(tab: dict[str, Any], model: ModelOptions) -> dict[str, Prior]:
     if missing:
         raise ConfigError(f"priors.{missing[0]}: required with model.diffusion = {mode!r}; give a value "
                           f"or a distribution")
+    if model.profile == "power-law":
+        return _profile_priors(tab, mode)
+    for k in PROFILE_PRIORS:
+        if k in tab:
+            raise ConfigError(f"priors.{k}: only used with model.profile = \"power-law\"; remove "
+                              f"it, or set profile = \"power-law\" in [model]")
     has_kep = {"stellar_mass", "radius"} & set(tab)
     if "kappa" in tab and has_kep:
         raise ConfigError("priors.kappa: give either kappa or stellar_mass with radius, not both")
@@ -375,6 +409,41 @@ def _parse_priors(tab: dict[str, Any], model: ModelOptions) -> dict[str, Prior]:
     if "kappa" not in tab and not has_kep:
         raise ConfigError('priors.kappa: rotation not given; set stellar_mass and radius (Keplerian '
                           'disk) or kappa (use kappa = { value = "0 1/s" } for a non-rotating sheet)')
+    return _build_priors(tab)
+
+
+def _build_priors(tab: dict[str, Any], extra_defaults: Mapping[str, Any] | None = None
+                  ) -> dict[str, Prior]:
     merged = dict(DEFAULT_PRIORS)
+    merged.update(extra_defaults or {})
     merged.update(tab)
-    return {k: parse_prior(k, v) for k, v in merged.items()}
+    return {k: (parse_signed_prior if k in LINEAR else parse_prior)(k, v) for k, v in merged.items()}
+
+
+def _profile_priors(tab: dict[str, Any], mode: str) -> dict[str, Prior]:
+    """The priors of ``profile = "power-law"`` (checked on top of the diffusion mode's)."""
+    where = 'with model.profile = "power-law"'
+    if "stellar_mass" not in tab:
+        raise ConfigError(f"priors.stellar_mass: required {where}: the rotation is Keplerian at "
+                          f"each clump's radius; give e.g. stellar_mass = {{ value = \"0.5 solMass\" }}")
+    for k, why in (("kappa", "the epicyclic frequency is Keplerian at each clump's radius"),
+                   ("radius", "each clump's radius comes from its position; the conditions are "
+                              "given at reference_radius")):
+        if k in tab:
+            raise ConfigError(f"priors.{k}: not used {where} ({why}); remove it")
+    for k in ("reference_radius", "surface_density_index", "temperature_index"):
+        if k not in tab:
+            example = {"reference_radius": '{ value = "100 au" }',
+                       "surface_density_index": '{ dist = "uniform", low = 0, high = 2 }',
+                       "temperature_index": "{ value = 0.5 }"}[k]
+            raise ConfigError(f"priors.{k}: required {where}, e.g. {k} = {example}")
+    if "ionization_index" in tab and mode != "ionization":
+        raise ConfigError(f"priors.ionization_index: only used with model.diffusion = "
+                          f"\"ionization\" (got {mode!r}); remove it")
+    defaults: dict[str, Any] = {"mass_to_flux_index": {"value": 0.0}}
+    if mode == "ionization":
+        defaults["ionization_index"] = {"value": 0.0}
+    priors = _build_priors(tab, defaults)
+    if not priors["reference_radius"].fixed:
+        raise ConfigError('priors.reference_radius: must be a fixed value, e.g. { value = "100 au" }')
+    return priors

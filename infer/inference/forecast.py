@@ -9,6 +9,11 @@ for each, and the posterior samples are reweighted by that likelihood,
 
     w_i  proportional to  exp(-(ln x_i - ln y)^2 / (2 p^2)).
 
+The weights are the likelihood term of a measurement as data
+(:func:`infer.inference.measurements.measurement_loglike`, the same function the fit uses
+for a ``[measurements]`` entry), so reweighting by a given measurement
+(:func:`measurement_weights`) approximates the fit with that measurement added.
+
 The weighted 68% interval of each target quantity, compared with the current
 one, gives the expected shrinkage; repeating for many draws gives its median
 and spread. The effective sample size of the weights,
@@ -31,9 +36,10 @@ from dataclasses import dataclass, field
 import numpy as np
 
 from ..errors import InferError
+from .measurements import Measurement, measurement_loglike
 
 __all__ = ["TargetForecast", "ForecastResult", "forecast", "parse_precision", "default_targets",
-           "MEASURABLE", "kish_ess", "weighted_quantiles"]
+           "MEASURABLE", "kish_ess", "weighted_quantiles", "measurement_weights"]
 
 #: command-line / API name of a measurable quantity -> sample column it constrains
 MEASURABLE: dict[str, str] = {
@@ -51,7 +57,7 @@ TARGET_LABELS: dict[str, str] = {
     "eta_ohm": "eta_Ohm [cm2/s]",
     "eta_total": "eta_AD + eta_Ohm [cm2/s]",
     "field": "field [mG]",
-    "wavelength": "fastest wavelength [au]",
+    "wavelength": "fastest-growing wavelength [au]",
     "temperature": "temperature [K]",
     "surface_density": "surface density [g/cm2]",
 }
@@ -64,7 +70,7 @@ SHORT_NAMES: dict[str, str] = {
     "eta_ohm": "Ohmic diffusivity",
     "eta_total": "total diffusivity",
     "field": "field strength",
-    "wavelength": "fastest wavelength",
+    "wavelength": "fastest-growing wavelength",
     "temperature": "temperature",
     "surface_density": "surface density",
 }
@@ -340,7 +346,7 @@ def forecast(samples: Mapping[str, np.ndarray], measured: str, precision: float,
     lnx = np.log(x)
     truth = lnx[rng.integers(0, n, int(n_draws))]
     ln_y = truth + precision * rng.standard_normal(int(n_draws))
-    logw = -0.5 * ((lnx[None, :] - ln_y[:, None]) / precision) ** 2
+    logw = measurement_loglike(x[None, :], value=np.exp(ln_y)[:, None], sd_ln=precision)
     w = np.exp(logw - logw.max(axis=1, keepdims=True))
     ess = kish_ess(w)
     results: dict[str, TargetForecast] = {}
@@ -365,11 +371,35 @@ def forecast(samples: Mapping[str, np.ndarray], measured: str, precision: float,
     return res
 
 
+def measurement_weights(samples: Mapping[str, np.ndarray], measurement: Measurement) -> np.ndarray:
+    """Importance weights of posterior samples under one measurement, normalised to sum 1.
+
+    Parameters
+    ----------
+    samples : mapping name -> ndarray (n,)
+        Posterior samples; must hold ``measurement.name`` in its canonical unit.
+    measurement : Measurement
+
+    Returns
+    -------
+    ndarray (n,)
+        exp(measurement log-likelihood), normalised.
+
+    Raises
+    ------
+    InferError
+        If the samples do not hold the measured quantity or no sample has weight.
+    """
+    if measurement.name not in samples:
+        raise InferError(f"no samples of {measurement.name!r} to reweight")
+    logw = measurement.loglike(np.asarray(samples[measurement.name], dtype=float))
+    if not np.any(np.isfinite(logw)):
+        raise InferError(f"the measurement of {measurement.name} gives every sample zero weight")
+    w = np.exp(logw - np.max(logw))
+    return w / w.sum()
+
+
 def _refit_advice(col: str, precision: float) -> str:
     dex = precision / np.log(10.0)
-    if col in ("surface_density", "temperature"):
-        return (f"Refit with the measurement as a prior instead (a lognormal prior on {col} "
-                f"with sigma_dex = {dex:.2g}).")
-    return (f"Refit with the measurement as a prior instead (the field is derived: narrow the "
-            f"mass_to_flux prior to the values the measured field allows, about {dex:.2g} dex "
-            f"wide), or sample more posterior points.")
+    return (f"Refit with the measurement as data instead: a [measurements] entry "
+            f"{col} = {{ value = ..., error_dex = {dex:.2g} }} in the run config.")

@@ -6,13 +6,21 @@ whose ``__call__`` evaluates the log-posterior of a whole ensemble at once
 (emcee ``vectorize=True``): an array (n_walkers, n_dim) in, an array
 (n_walkers,) out, finite or -inf, never NaN.
 
-Likelihood (physics note, section 7)::
+Likelihood (docs/physics.md, "Likelihood")::
 
     ln s_e ~ Normal(ln(f_lambda lambda_m), sigma_lambda^2 + (ds_e / s_e)^2)
     ln m_j ~ Normal(ln(f_M M_frag),       sigma_M^2      + (dm_j / m_j)^2)
 
 plus an optional growth-time constraint t_m < t_max (soft: log-normal CDF;
 hard: -inf beyond). Parameter sets with no growing mode have likelihood 0.
+
+Selection (``[model] selection = "auto"``, the default): when the catalog states its beam
+and detection limit, each spacing term is truncated below the shortest length the beam
+resolves along that edge and each mass term below the limit (truncated log-normals,
+:mod:`infer.inference.selection`), and with a searched ``area`` the number of clumps enters
+as a Poisson term. ``selection = "off"`` (or a catalog without these keys) gives the
+likelihood above, value for value. The terms themselves are in
+:mod:`infer.inference.likelihood`.
 """
 
 from __future__ import annotations
@@ -22,35 +30,25 @@ from dataclasses import dataclass
 
 import astropy.units as u
 import numpy as np
-from scipy import special
 
 from ..constants import AU, M_JUP, M_SUN, YR, G
 from ..errors import InferError
 from ..physics.microphysics import diffusivities
 from ..physics.predict import Forward, forward
 from ..physics.sheet import field_from_mass_to_flux
+from ..quantities import DERIVED_NAMES, QUANTITIES
 from .config import ModelOptions, RunConfig
+from .likelihood import count_term, growth_term, observation_terms
+from .measurements import Measurement
+from .parameters import RadialPlan, at_radii, log_prior_sampled, radial_plan, to_sampled, to_values
 from .priors import PARAMETERS, Prior
 
 __all__ = ["Observations", "Model", "build_model", "DERIVED_UNITS"]
 
-_LN10 = np.log(10.0)
-_LN2PI = np.log(2.0 * np.pi)
+_NONE = -np.inf            # ln of an absent threshold
 
 #: derived quantity -> unit string used in the summary tables
-DERIVED_UNITS: dict[str, str] = {
-    "field": "mG",
-    "eta_ad": "cm2 / s",
-    "eta_ohm": "cm2 / s",
-    "eta_total": "cm2 / s",
-    "ionization": "",
-    "tau_ni": "yr",
-    "wavelength": "au",
-    "growth_time": "yr",
-    "fragment_mass": "jupiterMass",
-    "toomre_q": "",
-    "thermal_wavelength": "au",
-}
+DERIVED_UNITS: dict[str, str] = {k: QUANTITIES[k].unit for k in DERIVED_NAMES}
 
 
 @dataclass(frozen=True)
@@ -68,6 +66,22 @@ class Observations:
     var_mass : ndarray (n_clumps,)
     labels : tuple of str
         One label per observation, spacings first ("spacing:A-B"), then masses ("mass:A").
+    ln_spacing_min : ndarray (n_edges,) or None
+        ln (cm) of the shortest disk-plane length the beam resolves along each spacing; -inf
+        for a spacing that is not truncated (one observed below the beam). None: no beam.
+    ln_mass_min : ndarray (n_clumps,) or None
+        ln (g) of the detection limit for each mass (-inf for masses observed below it).
+    ln_resolvable : ndarray (n_edges,) or None
+        ln (cm) of the beam's resolvable length along every spacing (truncated or not).
+    ln_beam_length : float
+        ln (cm) of the beam's typical (median over the spacings) resolvable length, for the
+        expected number of clumps; -inf without a beam.
+    ln_mass_limit : float
+        ln (g) of the detection limit; -inf without one.
+    area : float or None
+        Searched area of the sheet in its own plane, cm^2.
+    spacing_radius, mass_radius : ndarray or None
+        Radius of each spacing (mean of its two clumps' radii) and of each clump, cm.
     """
 
     ln_spacing: np.ndarray
@@ -75,10 +89,18 @@ class Observations:
     ln_mass: np.ndarray
     var_mass: np.ndarray
     labels: tuple[str, ...] = ()
+    ln_spacing_min: np.ndarray | None = None
+    ln_mass_min: np.ndarray | None = None
+    ln_resolvable: np.ndarray | None = None
+    ln_beam_length: float = _NONE
+    ln_mass_limit: float = _NONE
+    area: float | None = None
+    spacing_radius: np.ndarray | None = None
+    mass_radius: np.ndarray | None = None
 
     @classmethod
     def from_region(cls, region) -> Observations:
-        """From a :class:`infer.catalog.regions.Region`."""
+        """From a :class:`infer.catalog.regions.Region` (with its beam, limit, area and radii)."""
         s = np.asarray(region.spacings.to_value(u.cm), dtype=float)
         ds = np.asarray(region.spacing_errors.to_value(u.cm), dtype=float)
         m = np.asarray(region.masses.to_value(u.g), dtype=float)
@@ -88,13 +110,41 @@ class Observations:
         labels = [f"spacing:{ids[i]}-{ids[j]}" for i, j in pairs] if len(pairs) == len(s) else \
             [f"spacing:{k}" for k in range(len(s))]
         labels += [f"mass:{i}" for i in ids]
-        return cls.from_arrays(spacings=s, spacing_errors=ds, masses=m, mass_errors=dm,
-                               labels=tuple(labels))
+        s_min = getattr(region, "spacing_min", None)
+        m_lim = getattr(region, "mass_limit", None)
+        area = getattr(region, "area", None)
+        radii = np.hypot(region.x.to_value(u.cm), region.y.to_value(u.cm))
+        s_rad = 0.5 * (radii[pairs[:, 0]] + radii[pairs[:, 1]]) if len(pairs) == len(s) else None
+        return cls.from_arrays(
+            spacings=s, spacing_errors=ds, masses=m, mass_errors=dm, labels=tuple(labels),
+            spacing_min=None if s_min is None else s_min.to_value(u.cm),
+            mass_limit=None if m_lim is None else float(m_lim.to_value(u.g)),
+            area=None if area is None else float(area.to_value(u.cm**2)),
+            spacing_radius=s_rad, mass_radius=radii)
 
     @classmethod
     def from_arrays(cls, *, spacings, spacing_errors=None, masses, mass_errors=None,
-                    labels=()) -> Observations:
-        """From cgs arrays (spacings in cm, masses in g)."""
+                    labels=(), spacing_min=None, mass_limit=None, area=None,
+                    spacing_radius=None, mass_radius=None) -> Observations:
+        """From cgs arrays (spacings in cm, masses in g).
+
+        Parameters
+        ----------
+        spacings, masses : array_like
+            cm and g.
+        spacing_errors, mass_errors : array_like, optional
+            One-sigma errors, same units.
+        labels : sequence of str, optional
+        spacing_min : array_like (n_edges,), optional
+            Shortest resolvable length along each spacing, cm. Spacings at or below it are
+            kept untruncated (the catalog shows the beam resolved them).
+        mass_limit : float, optional
+            Detection limit, g (masses at or below it are kept untruncated).
+        area : float, optional
+            Searched area in the plane of the sheet, cm^2.
+        spacing_radius, mass_radius : array_like, optional
+            Radius of each spacing and each clump, cm.
+        """
         s = np.asarray(spacings, dtype=float)
         m = np.asarray(masses, dtype=float)
         ds = np.zeros_like(s) if spacing_errors is None else np.asarray(spacing_errors, float)
@@ -104,7 +154,24 @@ class Observations:
         if not labels:
             labels = tuple([f"spacing:{k}" for k in range(s.size)] +
                            [f"mass:{k}" for k in range(m.size)])
-        return cls(np.log(s), (ds / s) ** 2, np.log(m), (dm / m) ** 2, tuple(labels))
+        ln_s, ln_m = np.log(s), np.log(m)
+        kw: dict = {}
+        if spacing_min is not None:
+            ln_min = np.log(np.broadcast_to(np.asarray(spacing_min, dtype=float), s.shape))
+            kw["ln_spacing_min"] = np.where(ln_s > ln_min, ln_min, _NONE)
+            kw["ln_resolvable"] = ln_min
+            kw["ln_beam_length"] = float(np.median(ln_min)) if ln_min.size else _NONE
+        if mass_limit is not None:
+            lim = float(np.log(mass_limit))
+            kw["ln_mass_min"] = np.where(ln_m > lim, lim, _NONE)
+            kw["ln_mass_limit"] = lim
+        if area is not None:
+            kw["area"] = float(area)
+        if spacing_radius is not None:
+            kw["spacing_radius"] = np.asarray(spacing_radius, dtype=float).reshape(s.shape)
+        if mass_radius is not None:
+            kw["mass_radius"] = np.asarray(mass_radius, dtype=float).reshape(m.shape)
+        return cls(ln_s, (ds / s) ** 2, ln_m, (dm / m) ** 2, tuple(labels), **kw)
 
     @property
     def n_spacings(self) -> int:
@@ -113,6 +180,12 @@ class Observations:
     @property
     def n_masses(self) -> int:
         return int(self.ln_mass.size)
+
+    @property
+    def has_selection(self) -> bool:
+        """Whether a beam, a detection limit or a searched area is given."""
+        return (self.ln_spacing_min is not None or self.ln_mass_min is not None
+                or self.area is not None)
 
 
 @dataclass(frozen=True)
@@ -127,12 +200,18 @@ class Model:
         Every parameter's prior (fixed ones included).
     options : ModelOptions
     obs : Observations
+    measurements : tuple of Measurement
+        Measured quantities that add a term each to the likelihood.
+    plan : RadialPlan or None
+        With ``profile = "power-law"``: the distinct radii of the observations.
     """
 
     names: tuple[str, ...]
     priors: Mapping[str, Prior]
     options: ModelOptions
     obs: Observations
+    measurements: tuple[Measurement, ...] = ()
+    plan: RadialPlan | None = None
 
     @property
     def ndim(self) -> int:
@@ -145,7 +224,8 @@ class Model:
         Parameters
         ----------
         theta : array_like (n, ndim)
-            ln of the sampled parameters.
+            The sampled coordinates: ln of each positive parameter, the power-law indices
+            themselves (:mod:`infer.inference.parameters`).
         """
         theta = np.atleast_2d(np.asarray(theta, dtype=float))
         n = theta.shape[0]
@@ -153,10 +233,14 @@ class Model:
         for name, prior in self.priors.items():
             if prior.fixed:
                 out[name] = np.full(n, prior.value)
-        with np.errstate(over="ignore"):
-            for i, name in enumerate(self.names):
-                out[name] = np.exp(theta[:, i])
+        for i, name in enumerate(self.names):
+            out[name] = to_values(name, theta[:, i])
         return out
+
+    def sampled(self, values: Mapping[str, np.ndarray]) -> np.ndarray:
+        """Inverse of :meth:`values` for the sampled parameters: (n, ndim)."""
+        return np.column_stack([to_sampled(k, np.asarray(values[k], dtype=float))
+                                for k in self.names])
 
     def physical(self, v: Mapping[str, np.ndarray]) -> dict[str, np.ndarray]:
         """cgs conditions from parameter values: sigma, T, mu0, field, kappa, p_ext, diffusivities."""
@@ -191,9 +275,17 @@ class Model:
         zero = np.zeros(n)
         return zero, zero, np.full(n, np.nan), np.full(n, np.nan)
 
-    def evaluate(self, theta) -> tuple[dict[str, np.ndarray], dict[str, np.ndarray], Forward]:
-        """Values, physical conditions (with diffusivities) and the forward model for ``theta``."""
+    def evaluate(self, theta, radii=None) -> tuple[dict[str, np.ndarray], dict[str, np.ndarray],
+                                                   Forward]:
+        """Values, physical conditions (with diffusivities) and the forward model for ``theta``.
+
+        With ``profile = "power-law"`` the model is evaluated at ``reference_radius`` (radii
+        None: arrays (n,)), or at every radius of ``radii`` (au, (R,)) for every row, as flat
+        arrays (n * R,) in sample-major order (one kernel call for all of them).
+        """
         v = self.values(theta)
+        if self.options.profile == "power-law":
+            v = at_radii(v, radii)
         phys = self.physical(v)
         from ..physics.sheet import equilibrium
 
@@ -209,54 +301,141 @@ class Model:
 
     # --------------------------------------------------------------- densities
     def log_prior(self, theta) -> np.ndarray:
-        """Sum of the priors' log-densities in ln-space (n,)."""
+        """Sum of the priors' log-densities in the sampled coordinates (n,)."""
         theta = np.atleast_2d(np.asarray(theta, dtype=float))
         lp = np.zeros(theta.shape[0])
         for i, name in enumerate(self.names):
-            lp = lp + self.priors[name].logpdf_ln(theta[:, i])
+            lp = lp + log_prior_sampled(self.priors[name], theta[:, i])
         return np.where(np.isnan(lp), -np.inf, lp)
 
     def pointwise_loglike(self, theta) -> np.ndarray:
         """Log-likelihood of every observation (n, n_obs): spacings first, then masses.
 
-        The growth-time constraint (a property of the parameters, not of one
-        observation) is not included; rows with no growing mode are -inf.
+        The growth-time constraint and the number of clumps (properties of the parameters
+        and of the catalog as a whole, not of one observation) are not included; rows with
+        no growing mode are -inf.
         """
         theta = np.atleast_2d(np.asarray(theta, dtype=float))
-        v, _, fw = self.evaluate(theta)
-        return self._pointwise(v, fw)
+        return self._pointwise(*self._predict(theta))
 
-    def _pointwise(self, v, fw: Forward) -> np.ndarray:
+    @property
+    def selection_active(self) -> bool:
+        """Whether the likelihood models the selection (``selection = "auto"`` and a limit given)."""
+        return self.options.selection == "auto" and self.obs.has_selection
+
+    def selection_text(self) -> str:
+        """One sentence on how the likelihood treats the catalog's selection (for summaries)."""
         o = self.obs
+        if not o.has_selection:
+            return "no beam, detection limit or area given: every clump is taken as observed"
+        if self.options.selection == "off":
+            return "selection = off: the catalog's beam, detection limit and area are not modelled"
         parts = []
-        with np.errstate(invalid="ignore", divide="ignore"):
-            if self.options.use_spacings and o.n_spacings:
-                mu = np.log(v["spacing_calibration"] * fw.wavelength)[:, None]
-                var = (v["spacing_scatter"] * _LN10)[:, None] ** 2 + o.var_spacing[None, :]
-                parts.append(-0.5 * (o.ln_spacing[None, :] - mu) ** 2 / var - 0.5 * (_LN2PI + np.log(var)))
-            if self.options.use_masses and o.n_masses:
-                mu = np.log(v["mass_calibration"] * fw.fragment_mass)[:, None]
-                var = (v["mass_scatter"] * _LN10)[:, None] ** 2 + o.var_mass[None, :]
-                parts.append(-0.5 * (o.ln_mass[None, :] - mu) ** 2 / var - 0.5 * (_LN2PI + np.log(var)))
-        ll = np.concatenate(parts, axis=1) if parts else np.zeros((fw.wavelength.shape[0], 0))
-        ll = np.where(fw.unstable[:, None] & np.isfinite(ll), ll, -np.inf)
-        return ll
+        if o.ln_spacing_min is not None:
+            k = int(np.sum(np.isfinite(o.ln_spacing_min)))
+            parts.append(f"{k} of {o.n_spacings} spacings truncated below the beam's resolvable "
+                         f"length along them")
+        if o.ln_mass_min is not None:
+            k = int(np.sum(np.isfinite(o.ln_mass_min)))
+            parts.append(f"{k} of {o.n_masses} masses truncated below the detection limit "
+                         f"{np.exp(o.ln_mass_limit) / M_JUP:.3g} M_Jup")
+        if o.area is not None:
+            parts.append(f"the number of clumps is Poisson with mean (area / lambda_m^2) x "
+                         f"detection probability, area {o.area / AU**2:.3g} au2")
+        return "; ".join(parts)
 
-    def _growth_term(self, fw: Forward) -> np.ndarray:
-        t_max = self.options.growth_time_max
-        if t_max is None:
-            return np.zeros(fw.growth_time.shape)
-        with np.errstate(invalid="ignore", divide="ignore"):
-            z = (np.log(t_max * YR) - np.log(fw.growth_time)) / (self.options.growth_width_dex * _LN10)
-            if self.options.growth_constraint == "hard":
-                return np.where(fw.growth_time <= t_max * YR, 0.0, -np.inf)
-            return special.log_ndtr(z)
+    def _predict(self, theta) -> tuple[dict[str, np.ndarray], dict[str, np.ndarray]]:
+        """Parameter values (n,) and the model at each observation (see :meth:`_centres`)."""
+        if self.plan is None:
+            v, _, fw = self.evaluate(theta)
+            return v, self._centres(fw)
+        _, _, fw = self.evaluate(theta, radii=self.plan.radii)
+        return self.values(theta), self._centres(fw, self.plan)
+
+    @staticmethod
+    def _centres(fw: Forward, plan: RadialPlan | None = None) -> dict[str, np.ndarray]:
+        """The model's wavelength, fragment mass, growth and stability at each observation.
+
+        One column per observation for a radial profile (``plan``), one column for all of them
+        otherwise; the growth time (n,) is the longest at the clumps' radii (every observed
+        clump had to grow).
+        """
+        if plan is None:
+            col = fw.wavelength[:, None]
+            return {"wavelength": col, "fragment_mass": fw.fragment_mass[:, None],
+                    "wavelength_at_mass": col, "unstable_spacing": fw.unstable[:, None],
+                    "unstable_mass": fw.unstable[:, None], "growth_time": fw.growth_time}
+        k = plan.radii.size
+
+        def grid(a):
+            return np.asarray(a).reshape(-1, k)
+
+        lam, unstable = grid(fw.wavelength), grid(fw.unstable)
+        sc, mc = plan.spacing_col, plan.mass_col
+        return {"wavelength": lam[:, sc], "fragment_mass": grid(fw.fragment_mass)[:, mc],
+                "wavelength_at_mass": lam[:, mc], "unstable_spacing": unstable[:, sc],
+                "unstable_mass": unstable[:, mc],
+                "growth_time": np.max(grid(fw.growth_time)[:, mc], axis=1)}
+
+    def _pointwise(self, v, c: Mapping[str, np.ndarray]) -> np.ndarray:
+        o = self.obs
+        sel = self.selection_active
+        parts = []
+        if self.options.use_spacings and o.n_spacings:
+            ll = observation_terms(o.ln_spacing, o.var_spacing,
+                                   v["spacing_calibration"][:, None] * c["wavelength"],
+                                   v["spacing_scatter"], o.ln_spacing_min if sel else None)
+            parts.append(np.where(c["unstable_spacing"] & np.isfinite(ll), ll, -np.inf))
+        if self.options.use_masses and o.n_masses:
+            ll = observation_terms(o.ln_mass, o.var_mass,
+                                   v["mass_calibration"][:, None] * c["fragment_mass"],
+                                   v["mass_scatter"], o.ln_mass_min if sel else None)
+            parts.append(np.where(c["unstable_mass"] & np.isfinite(ll), ll, -np.inf))
+        n = c["growth_time"].shape[0]
+        return np.concatenate(parts, axis=1) if parts else np.zeros((n, 0))
+
+    def _count(self, v, c: Mapping[str, np.ndarray]) -> np.ndarray:
+        """Poisson term of the number of clumps (zeros unless selection applies and ``area`` is given)."""
+        o = self.obs
+        if not self.selection_active or o.area is None:
+            return np.zeros(c["growth_time"].shape)
+        var_s = float(np.median(o.var_spacing)) if o.n_spacings else 0.0
+        var_m = float(np.median(o.var_mass)) if o.n_masses else 0.0
+        return count_term(o.n_masses, area=o.area,
+                          wavelength=v["spacing_calibration"][:, None] * c["wavelength_at_mass"],
+                          mass=v["mass_calibration"][:, None] * c["fragment_mass"],
+                          spacing_scatter_dex=v["spacing_scatter"],
+                          mass_scatter_dex=v["mass_scatter"], var_spacing=var_s, var_mass=var_m,
+                          ln_mass_limit=o.ln_mass_limit, ln_beam_length=o.ln_beam_length)
+
+    def _growth_term(self, growth_time: np.ndarray) -> np.ndarray:
+        o = self.options
+        return growth_term(growth_time, t_max=o.growth_time_max, width_dex=o.growth_width_dex,
+                           hard=o.growth_constraint == "hard")
 
     def log_likelihood(self, theta) -> np.ndarray:
         theta = np.atleast_2d(np.asarray(theta, dtype=float))
-        v, _, fw = self.evaluate(theta)
-        ll = self._pointwise(v, fw).sum(axis=1) + self._growth_term(fw)
+        v, c = self._predict(theta)
+        ll = self._pointwise(v, c).sum(axis=1) + self._growth_term(c["growth_time"])
+        if self.selection_active:
+            ll = ll + self._count(v, c)
+        if self.measurements:
+            ll = ll + self.measurement_loglike(v)
         return np.where(np.isnan(ll), -np.inf, ll)
+
+    def measured_value(self, name: str, v: Mapping[str, np.ndarray]) -> np.ndarray:
+        """The model's value of a measurable quantity (its summary unit) from parameter values."""
+        if name == "field":
+            return field_from_mass_to_flux(v["surface_density"], v["mass_to_flux"]) * 1e3
+        return np.asarray(v[name], dtype=float)
+
+    def measurement_loglike(self, v: Mapping[str, np.ndarray]) -> np.ndarray:
+        """Sum of the measurement terms for parameter values ``v`` (n,)."""
+        n = np.asarray(next(iter(v.values()))).shape[0]
+        out = np.zeros(n)
+        for m in self.measurements:
+            out = out + m.loglike(self.measured_value(m.name, v))
+        return out
 
     def __call__(self, theta) -> np.ndarray:
         """Log-posterior of each row of ``theta`` (n, ndim) -> (n,); finite or -inf."""
@@ -291,7 +470,7 @@ class Model:
 
     def prior_sample(self, rng: np.random.Generator, n: int) -> np.ndarray:
         """n draws of theta from the prior (n, ndim)."""
-        return np.column_stack([np.log(self.priors[k].sample(rng, n)) for k in self.names]) \
+        return np.column_stack([to_sampled(k, self.priors[k].sample(rng, n)) for k in self.names]) \
             if self.names else np.zeros((n, 0))
 
 
@@ -302,7 +481,27 @@ def build_model(config: RunConfig, obs: Observations) -> Model:
         raise InferError("nothing to fit: every parameter in [priors] is fixed")
     if config.model.use_spacings and obs.n_spacings == 0 and not config.model.use_masses:
         raise InferError("the catalog has no spacings to fit")
-    return Model(names=names, priors=dict(config.priors), options=config.model, obs=obs)
+    plan = _radial_plan(obs) if config.model.profile == "power-law" else None
+    return Model(names=names, priors=dict(config.priors), options=config.model, obs=obs,
+                 measurements=tuple(config.measurements.values()), plan=plan)
+
+
+def _radial_plan(obs: Observations) -> RadialPlan:
+    """The radii of a power-law fit; refuses clumps without a radius or at the centre."""
+    if obs.mass_radius is None or (obs.n_spacings and obs.spacing_radius is None):
+        raise InferError('model.profile = "power-law" needs each clump\'s radius (positions '
+                         'relative to the star); these observations carry none')
+    r = obs.mass_radius
+    scale = float(np.max(r)) if r.size else 0.0
+    at_centre = np.flatnonzero(~(r > 1e-9 * scale))
+    if at_centre.size or scale <= 0:
+        labels = [obs.labels[obs.n_spacings + i].split(":", 1)[-1] for i in at_centre]
+        raise InferError(f"clump {', '.join(map(repr, labels)) or '(all)'} is at the centre "
+                         f"(r = 0), where a radial profile (model.profile = \"power-law\") is "
+                         f"singular: x, y must be offsets from the star; leave it out with "
+                         f"[catalog] exclude = [...] or use profile = \"local\"")
+    return radial_plan(obs.spacing_radius / AU if obs.spacing_radius is not None else
+                       np.zeros(0), r / AU)
 
 
 # labels for plots, exported for the plotting and results modules

@@ -278,7 +278,8 @@ def write_summary(table: Table, notes: list[str], out_dir: str | Path, *, header
     atomic_write_text(out_dir / "summary.ecsv", buf.getvalue())
 
     lines = [f"# Posterior summary: {header.get('region', '')}", ""]
-    for key in ("catalog", "diffusion", "fragment_mass_convention", "converged"):
+    for key in ("catalog", "diffusion", "fragment_mass_convention", "derived_quantities",
+                "selection", "measurements", "converged"):
         if key in header:
             lines.append(f"* {key.replace('_', ' ')}: {header[key]}")
     lines += ["", "| quantity | unit | median | 68% interval | 95% interval | kind |",

@@ -17,6 +17,7 @@ import numpy as np
 from scipy import special, stats
 
 from ..errors import ConfigError
+from ..quantities import PARAMETER_NAMES, QUANTITIES
 from ..units import parse_quantity
 
 __all__ = ["ParamInfo", "PARAMETERS", "Prior", "parse_prior", "DISTRIBUTIONS"]
@@ -31,23 +32,9 @@ class ParamInfo:
     allow_zero: bool = False
 
 
-#: config key -> canonical unit ("" = dimensionless; scatters in dex), plot label
-PARAMETERS: dict[str, ParamInfo] = {
-    "mass_to_flux": ParamInfo("", r"$\mu_0$"),
-    "ionization": ParamInfo("", r"$x_e$"),
-    "eta_ad": ParamInfo("cm2 / s", r"$\eta_\mathrm{AD}$ [cm$^2$ s$^{-1}$]"),
-    "eta_ohm": ParamInfo("cm2 / s", r"$\eta_\mathrm{O}$ [cm$^2$ s$^{-1}$]"),
-    "surface_density": ParamInfo("g / cm2", r"$\Sigma$ [g cm$^{-2}$]"),
-    "temperature": ParamInfo("K", r"$T$ [K]"),
-    "stellar_mass": ParamInfo("solMass", r"$M_\star$ [M$_\odot$]"),
-    "radius": ParamInfo("au", r"$r$ [au]"),
-    "kappa": ParamInfo("1 / s", r"$\kappa$ [s$^{-1}$]", allow_zero=True),
-    "external_pressure": ParamInfo("dyn / cm2", r"$P_\mathrm{ext}$ [dyn cm$^{-2}$]", allow_zero=True),
-    "spacing_scatter": ParamInfo("dex", r"$\sigma_\lambda$ [dex]", allow_zero=True),
-    "mass_scatter": ParamInfo("dex", r"$\sigma_M$ [dex]", allow_zero=True),
-    "spacing_calibration": ParamInfo("", r"$f_\lambda$"),
-    "mass_calibration": ParamInfo("", r"$f_M$"),
-}
+#: config key -> canonical unit ("" = dimensionless; scatters in dex), plot label; from the registry
+PARAMETERS: dict[str, ParamInfo] = {k: ParamInfo(QUANTITIES[k].unit, QUANTITIES[k].label,
+                                                 QUANTITIES[k].allow_zero) for k in PARAMETER_NAMES}
 
 #: distribution name -> its keys (all required)
 DISTRIBUTIONS: dict[str, tuple[str, ...]] = {

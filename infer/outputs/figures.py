@@ -28,6 +28,7 @@ import numpy as np
 from ..inference.model import Model
 from ..inference.posterior import Posterior
 from ..inference.priors import PARAMETERS
+from ..quantities import DERIVED_NAMES, QUANTITIES
 from .files import atomic_write_bytes
 
 if TYPE_CHECKING:  # pragma: no cover - typing only
@@ -52,19 +53,7 @@ FIGURE_NAMES = ("corner", "predictive")
 CONTOUR_LEVELS = (1.0 - np.exp(-0.5), 1.0 - np.exp(-2.0))
 
 #: derived quantity -> plot label with its unit (units of infer.inference.model.DERIVED_UNITS)
-DERIVED_LABELS: dict[str, str] = {
-    "field": r"$B$ [mG]",
-    "eta_ad": r"$\eta_\mathrm{AD}$ [cm$^2$ s$^{-1}$]",
-    "eta_ohm": r"$\eta_\mathrm{O}$ [cm$^2$ s$^{-1}$]",
-    "eta_total": r"$\eta_\mathrm{AD}+\eta_\mathrm{O}$ [cm$^2$ s$^{-1}$]",
-    "ionization": r"$x_e$",
-    "tau_ni": r"$\tau_\mathrm{ni}$ [yr]",
-    "wavelength": r"$\lambda_\mathrm{m}$ [au]",
-    "growth_time": r"$t_\mathrm{m}$ [yr]",
-    "fragment_mass": r"$M_\mathrm{frag}$ [$M_\mathrm{J}$]",
-    "toomre_q": r"$Q$",
-    "thermal_wavelength": r"$\lambda_\mathrm{T}$ [au]",
-}
+DERIVED_LABELS: dict[str, str] = {k: QUANTITIES[k].label for k in DERIVED_NAMES}
 
 #: quantities always shown as log10 (they range over many decades)
 _ALWAYS_LOG = frozenset({"mass_to_flux", "ionization", "eta_ad", "eta_ohm", "eta_total", "field",
@@ -648,7 +637,8 @@ def write_figures(out_dir: str | Path, *, post: Posterior, model: Model, region=
     Returns
     -------
     list of Path
-        The files written: corner.<fmt> then predictive.<fmt>.
+        The files written: corner.<fmt>, predictive.<fmt>, and radial.<fmt> for a
+        ``profile = "power-law"`` fit (:mod:`infer.outputs.radial`).
     """
     fmts = [f.lower().lstrip(".") for f in formats]
     bad = [f for f in fmts if f not in ("pdf", "png")]
@@ -659,7 +649,13 @@ def write_figures(out_dir: str | Path, *, post: Posterior, model: Model, region=
     written: list[Path] = []
     makers = {"corner": lambda: corner_figure(post, model, truths=truths, title=name),
               "predictive": lambda: predictive_figure(post, model, title=name)}
-    for base in FIGURE_NAMES:
+    bases = FIGURE_NAMES
+    if model.plan is not None:
+        from .radial import RADIAL_FILE, radial_band, radial_figure
+
+        makers[RADIAL_FILE] = lambda: radial_figure(radial_band(post, model), title=name)
+        bases = (*FIGURE_NAMES, RADIAL_FILE)
+    for base in bases:
         fig = makers[base]()
         try:
             for fmt in fmts:

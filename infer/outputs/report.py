@@ -253,6 +253,20 @@ def _meta_text(v) -> str:
     return str(v)
 
 
+def _profile_text(model) -> str:
+    """How the conditions vary across the region (one radius, or power laws of radius)."""
+    if model.plan is None:
+        return "Profile: local (one set of conditions for all clumps)."
+    pr = model.priors
+    idx = ", ".join(f"{k} {pr[k].describe()}" for k in
+                    ("surface_density_index", "temperature_index", "mass_to_flux_index",
+                     "ionization_index") if k in pr)
+    return (f"Profile: power law about reference_radius = {pr['reference_radius'].value:.4g} au, "
+            f"X(r) = X(r_0) (r / r_0)^-index ({idx}); Keplerian rotation at each radius; each "
+            f"spacing is compared with lambda_m at the mean radius of its two clumps and each mass "
+            f"with M_frag at its clump's radius. Derived quantities are given at reference_radius.")
+
+
 def _input_blocks(config, model, region, diag, post) -> list[Block]:
     o = model.options
     blocks = [Block("h2", "Model")]
@@ -267,9 +281,10 @@ def _input_blocks(config, model, region, diag, post) -> list[Block]:
                            f"{rot}; the fastest-growing mode of the linear dispersion relation "
                            f"sets the clump spacing and mass."),
                Block("li", f"Diffusion: {o.diffusion} ({_MODE_TEXT[o.diffusion]})."),
+               Block("li", _profile_text(model)),
                Block("li", "Spacings: " + ("minimum-spanning-tree edges" if o.spacing == "mst"
                                            else "nearest-neighbour distances")
-                     + " of the deprojected positions, compared with the fastest wavelength."),
+                     + " of the deprojected positions, compared with the fastest-growing wavelength."),
                Block("li", "Fragment mass: " + ("Sigma lambda_m^2 (one wavelength squared)"
                                                 if o.fragment_shape == "square"
                                                 else "Sigma pi (lambda_m / 2)^2 (circular patch)")
@@ -280,7 +295,10 @@ def _input_blocks(config, model, region, diag, post) -> list[Block]:
                         f" (spacings {'used' if o.use_spacings else 'not used'}, masses "
                         f"{'used' if o.use_masses else 'not used'})")
                      + (f"; growth time below {o.growth_time_max:.3g} yr ({o.growth_constraint})"
-                        if o.growth_time_max is not None else "") + ".")]
+                        if o.growth_time_max is not None else "") + "."),
+               Block("li", f"Selection: {model.selection_text()}."),
+               Block("li", "Measurements used as data (one likelihood term each): "
+                     + ("; ".join(m.describe() for m in model.measurements) or "none") + ".")]
     blocks.append(Block("h2", "Priors"))
     from ..inference.priors import PARAMETERS
 
@@ -412,6 +430,11 @@ def build_report(fit_dir: str | Path, *, forecasts: Sequence[tuple[str, float]] 
         blocks += [Block("li", nt) for nt in notes]
     blocks += [Block("break"), Block("image", "corner.png", "Corner plot of the posterior."),
                Block("image", "predictive.png", "Posterior predictive check of spacings and masses."),
+               *([Block("image", "radial.png",
+                        "Fastest wavelength and fragment mass against radius (power-law profile): "
+                        "posterior median, 68% and 95% bands, with the observed spacings at the "
+                        "mean radius of their clumps and the masses at theirs.")]
+                 if model.plan is not None else []),
                Block("band", BAND_FILE,
                      f"Growth rate against wavelength over {band.n_samples} posterior samples: "
                      f"median, 68% and 95% bands; ticks: observed spacings.")]
@@ -430,7 +453,8 @@ def build_report(fit_dir: str | Path, *, forecasts: Sequence[tuple[str, float]] 
         blocks.append(Block("li", f"Effective sample size of the weights: median "
                                   f"{f.ess_median:.0f} of {f.n_samples}."))
         blocks += [Block("li", f"WARNING: {w}") for w in f.warnings]
-    missing = tuple(n for n in ("corner.png", "predictive.png") if not (out / n).is_file())
+    figs = ("corner.png", "predictive.png") + (("radial.png",) if model.plan is not None else ())
+    missing = tuple(n for n in figs if not (out / n).is_file())
     return Report(out, title, blocks, paragraph, fcs, band, table, notes, ratios, post, model,
                   region, missing)
 

@@ -1,6 +1,6 @@
 """Dimensionless dispersion relation of the magnetized, diffusive, rotating thin sheet.
 
-Units (physics note, section 4): surface density Sigma, sound speed c_s, length
+Units (docs/physics.md, "Dimensionless form"): surface density Sigma, sound speed c_s, length
 L0 = c_s^2 / (2 pi G Sigma), time t0 = c_s / (2 pi G Sigma). With the
 dimensionless wavenumber ``k`` (= k L0) the growth rate ``g`` (= gamma t0)
 solves the cubic
@@ -17,13 +17,24 @@ Everything here is plain numpy on float arrays that broadcast against each
 other, so one call evaluates a whole ensemble of walkers. No Python loop runs
 over parameter sets; the only loops are fixed-length iterations (Newton steps,
 golden-section steps) applied to all sets at once.
+
+:func:`fastest_mode` has two interchangeable paths: this module's numpy arrays
+and a compiled loop over the sets (:mod:`infer.physics.kernel_compiled`, numba), which
+runs the same algorithm with far less per-call overhead. The compiled one is
+used when numba can be imported; choose with the ``kernel`` argument, with
+:func:`set_kernel`, or with the environment variable ``INFER_KERNEL`` (``auto``,
+``compiled`` or ``numpy``; read at the first call).
 """
 
 from __future__ import annotations
 
+import functools
+import os
 from dataclasses import dataclass
 
 import numpy as np
+
+from ..errors import InferError
 
 __all__ = [
     "SheetParams",
@@ -34,7 +45,14 @@ __all__ = [
     "FastestMode",
     "fastest_mode",
     "thermal_fastest_k",
+    "KERNEL_ENV",
+    "KERNELS",
+    "compiled_available",
+    "set_kernel",
 ]
+
+KERNEL_ENV = "INFER_KERNEL"               # environment variable choosing the fastest-mode path
+KERNELS = ("auto", "compiled", "numpy")   # auto: compiled if numba imports, else numpy
 
 _GOLDEN = 0.5 * (3.0 - np.sqrt(5.0))   # 0.381966...
 _N_GRID = 8                           # coarse log-k scan that picks the start
@@ -92,9 +110,10 @@ def sheet_params(*, inv_mu2, p_ext=0.0, kappa=0.0, eta=0.0) -> SheetParams:
     inv_mu2, p_ext, kappa, eta : array_like
         See :class:`SheetParams`; all must be finite and non-negative.
     """
-    arrays = np.broadcast_arrays(
-        *(np.asarray(x, dtype=float) for x in (inv_mu2, p_ext, kappa, eta))
-    )
+    arrays = [np.asarray(x, dtype=float) for x in (inv_mu2, p_ext, kappa, eta)]
+    shapes = [a.shape for a in arrays]
+    if shapes.count(shapes[0]) != 4:        # (equal shapes, the sampler's case: no broadcast)
+        arrays = np.broadcast_arrays(*arrays)
     return SheetParams(*(np.array(a, dtype=float) for a in arrays))
 
 
@@ -388,7 +407,8 @@ def _refine(x0, g0, a, b, q: SheetParams, *, fallback: bool = True):
 
     Newton's method on (g, k) first; where it does not end at a clean interior
     maximum at least as high as the start, golden section over the bracket
-    (never below the start), or with ``fallback=False`` just the start.
+    (never below the start) and Newton again from its result, or with
+    ``fallback=False`` just the start.
     Returns k and g.
     """
     k1, g1, ok = _polish(np.exp(x0), g0, q, np.exp(a), np.exp(b))
@@ -400,14 +420,35 @@ def _refine(x0, g0, a, b, q: SheetParams, *, fallback: bool = True):
     if bad.size and not fallback:
         k1[bad], g1[bad] = np.exp(x0[bad]), g0[bad]
     elif bad.size:
-        kb, gb = _golden(a[bad], b[bad], _take(q, bad))
+        qb, ka, kb_ = _take(q, bad), np.exp(a[bad]), np.exp(b[bad])
+        kb, gb = _golden(a[bad], b[bad], qb)
+        # golden section places a smooth maximum only to ~sqrt(eps) in k: Newton from there
+        kp, gp, okp = _polish(kb, gb, qb, ka, kb_)
+        okp &= (kp > ka) & (kp < kb_) & (gp >= gb * (1.0 - _ROUNDOFF))
+        kb, gb = np.where(okp, kp, kb), np.where(okp, gp, gb)
         better = gb >= g0[bad]
         k1[bad] = np.where(better, kb, np.exp(x0[bad]))
         g1[bad] = np.where(better, gb, g0[bad])
     return k1, g1
 
 
-def fastest_mode(p: SheetParams) -> FastestMode:
+_compiled_kernel = None     # the compiled function once loaded, False if numba is missing
+
+
+def compiled_available() -> bool:
+    """Whether the compiled path can be used (numba importable); loads it on first call."""
+    global _compiled_kernel
+    if _compiled_kernel is None:
+        try:
+            from .kernel_compiled import TUNING, fastest_mode_arrays
+        except ImportError:
+            _compiled_kernel = False
+        else:
+            _compiled_kernel = functools.partial(fastest_mode_arrays, TUNING)
+    return _compiled_kernel is not False
+
+
+def fastest_mode(p: SheetParams, *, kernel: str | None = None) -> FastestMode:
     """Locate the maximum of the growth rate over the unstable band.
 
     1. A scan of the growth rate on ``_N_GRID`` logarithmically spaced
@@ -419,23 +460,120 @@ def fastest_mode(p: SheetParams) -> FastestMode:
     2. Newton's method on (g, k) for p = 0, dp/dk = 0 polishes it
        (quadratic convergence, implicit differentiation of the cubic).
     3. Where that fails to converge inside the bracket of neighbouring grid
-       cells, a golden-section search in log k over that bracket is used.
+       cells, a golden-section search in log k over that bracket is used,
+       and Newton's method again from its result (golden section alone places
+       a smooth maximum only to ~sqrt(eps) relative in k).
     4. Where the scan shows a second local maximum outside that bracket (or
        a flat top: a point within ``_PLATEAU`` of the best), that start is
        refined too and the higher of the two results is kept; near the
        critical mass-to-flux ratio two peaks can differ by < 1 % in height.
+    5. Just above the critical mass-to-flux ratio with weak diffusion, the
+       flux-frozen peak can lie below the scan; there a second scan below it
+       is refined too.
 
-    All parameter sets advance together; no Python loop over sets.
+    Two paths run these steps and agree to round-off (tests/test_kernel_paths.py):
+    numpy arrays, all parameter sets advancing together (no Python loop over
+    sets), and a compiled loop over the sets (:mod:`infer.physics.kernel_compiled`), which
+    compiles at its first use in a fresh install (a few seconds; then it is
+    cached on disk) and costs far less per call.
 
     Parameters
     ----------
     p : SheetParams
         Any shape.
+    kernel : {"auto", "compiled", "numpy"}, optional
+        Which path computes it; default: as set by :func:`set_kernel`, else the
+        environment variable ``INFER_KERNEL`` as read at the first call, else
+        "auto" (compiled when numba can be imported, else numpy).
 
     Returns
     -------
     FastestMode
         Arrays of the shape of ``p``.
+
+    Raises
+    ------
+    InferError
+        For an unknown ``kernel`` (or ``INFER_KERNEL``), or "compiled" without numba.
+    """
+    if kernel is None:
+        kernel = _default_kernel or _read_default_kernel()
+    if kernel == "numpy":
+        return _fastest_mode_numpy(p)
+    if kernel not in KERNELS:
+        raise InferError(f"unknown fastest-mode kernel {kernel!r} (argument kernel= or "
+                         f"environment variable {KERNEL_ENV}); pass one of {', '.join(KERNELS)}")
+    if _compiled_kernel or compiled_available():
+        return _fastest_mode_compiled(p)
+    if kernel == "auto":
+        return _fastest_mode_numpy(p)
+    raise InferError(f"the compiled fastest-mode kernel needs numba, which cannot be imported; "
+                     f"install numba or choose kernel='numpy' ({KERNEL_ENV}=numpy)")
+
+
+_default_kernel = None      # INFER_KERNEL as read at the first call (saves ~1 us per call)
+
+
+def _read_default_kernel() -> str:
+    global _default_kernel
+    _default_kernel = os.environ.get(KERNEL_ENV, "auto") or "auto"
+    return _default_kernel
+
+
+def set_kernel(kernel: str | None) -> None:
+    """Set the path :func:`fastest_mode` takes when called without ``kernel=``.
+
+    Parameters
+    ----------
+    kernel : {"auto", "compiled", "numpy"} or None
+        None: read the environment variable ``INFER_KERNEL`` again at the next call.
+
+    Raises
+    ------
+    InferError
+        For an unknown name.
+    """
+    global _default_kernel
+    if kernel is not None and kernel not in KERNELS:
+        raise InferError(f"unknown fastest-mode kernel {kernel!r}; pass one of {', '.join(KERNELS)}")
+    _default_kernel = kernel
+
+
+_F8 = np.dtype(np.float64)
+
+
+def _fastest_mode_compiled(p: SheetParams) -> FastestMode:
+    """:func:`fastest_mode` by the compiled loop: one call for all sets.
+
+    The compiled function takes 1-D contiguous float64 arrays of one length (it
+    raises TypeError or ValueError for anything else); the usual input (from
+    :func:`sheet_params`, 1-D) is passed as it is, so a call on a sampler's batch
+    costs little more than the arithmetic. Other shapes are flattened first.
+    """
+    arrays = m, pe, ka, et = p.inv_mu2, p.p_ext, p.kappa, p.eta
+    if (getattr(m, "ndim", 0) == 1 and getattr(pe, "ndim", 0) == 1 and getattr(ka, "ndim", 0) == 1
+            and getattr(et, "ndim", 0) == 1):
+        try:
+            k, g, grows, k_lo, k_hi = _compiled_kernel(m, pe, ka, et)
+        except (TypeError, ValueError):     # another dtype or layout, or unequal lengths
+            pass
+        else:
+            return FastestMode(k=k, growth_rate=g, unstable=grows, k_lo=k_lo, k_hi=k_hi)
+    shapes = [np.shape(a) for a in arrays]
+    shape = shapes[0] if shapes.count(shapes[0]) == 4 else np.broadcast_shapes(*shapes)
+    flat = [np.ascontiguousarray(a if s == shape else np.broadcast_to(a, shape),
+                                 dtype=_F8).reshape(-1) for a, s in zip(arrays, shapes, strict=True)]
+    k, g, grows, k_lo, k_hi = _compiled_kernel(*flat)
+    return FastestMode(k=k.reshape(shape), growth_rate=g.reshape(shape),
+                       unstable=grows.reshape(shape), k_lo=k_lo.reshape(shape),
+                       k_hi=k_hi.reshape(shape))
+
+
+def _fastest_mode_numpy(p: SheetParams) -> FastestMode:
+    """Locate the maximum of the growth rate over the unstable band (numpy arrays).
+
+    All parameter sets advance together; no Python loop over sets. See
+    :func:`fastest_mode` for the steps.
     """
     k_lo, k_hi, exists = unstable_band(p)
     shape = k_lo.shape

@@ -1,6 +1,7 @@
 """From ionization to the neutral-ion collision time and the two diffusivities.
 
-Plain cgs float arrays in and out. Values and their status (physics note, section 6):
+Plain cgs float arrays in and out. Values and their status (docs/physics.md,
+"Microphysics"):
 
 * n_i = x_i n_n, or cosmic-ray equilibrium rho_i = C sqrt(rho_n) with
   C = 3e-16 g^1/2 cm^-3/2 at zeta = 1e-17 s^-1, scaling as sqrt(zeta) (from memory);

@@ -1,4 +1,4 @@
-"""Local disk conditions -> preferred fragment spacing, growth time and fragment mass.
+"""Local disk conditions -> fastest-growing wavelength, growth time and fragment mass.
 
 Two layers:
 
@@ -40,7 +40,7 @@ class Forward:
     thermal_wavelength: np.ndarray  # cm
     thermal_mass: np.ndarray        # g
     toomre_q: np.ndarray
-    q_crit_mag: np.ndarray
+    toomre_q_critical_magnetic: np.ndarray
     band_short: np.ndarray          # cm, shortest unstable wavelength
     band_long: np.ndarray           # cm, longest unstable wavelength (inf without rotation)
     rho_c: np.ndarray               # g cm^-3
@@ -108,7 +108,7 @@ def _dimensional(mode, p, eq, l0, t0, kappa, fragment_shape) -> Forward:
         thermal_wavelength=lam_t,
         thermal_mass=shape_factor * sig * lam_t**2,
         toomre_q=q,
-        q_crit_mag=np.broadcast_to(q_mag, mode.k.shape),
+        toomre_q_critical_magnetic=np.broadcast_to(q_mag, mode.k.shape),
         band_short=band_short,
         band_long=band_long,
         rho_c=np.broadcast_to(eq.rho_c, mode.k.shape),
@@ -125,7 +125,7 @@ class Prediction:
     unstable : ndarray of bool
         Whether any mode grows.
     wavelength : Quantity [au]
-        Fastest-growing (preferred) wavelength lambda_m; NaN where stable.
+        Fastest-growing wavelength lambda_m; NaN where stable.
     growth_time : Quantity [yr]
         e-folding time 1 / gamma_m of the fastest mode; NaN where stable.
     fragment_mass : Quantity [jupiterMass]
@@ -136,8 +136,9 @@ class Prediction:
         Same convention as ``fragment_mass`` with the thermal wavelength.
     toomre_q : Quantity [dimensionless]
         c_s kappa / (pi G Sigma).
-    q_crit_mag : Quantity [dimensionless]
-        Flux-frozen critical Q, (1 - mu0^-2) / sqrt((C_eff^2 + v_A^2) / c_s^2).
+    toomre_q_critical_magnetic : Quantity [dimensionless]
+        The critical Toomre Q with the field's support: a flux-frozen sheet grows
+        only if Q is below (1 - mu0^-2) / sqrt((C_eff^2 + v_A^2) / c_s^2).
     mass_to_flux : Quantity [dimensionless]
         mu0 in units of the critical value (inf without field).
     field : Quantity [mG]
@@ -162,7 +163,7 @@ class Prediction:
     thermal_wavelength: u.Quantity
     thermal_mass: u.Quantity
     toomre_q: u.Quantity
-    q_crit_mag: u.Quantity
+    toomre_q_critical_magnetic: u.Quantity
     mass_to_flux: u.Quantity
     field: u.Quantity
     eta_ad: u.Quantity
@@ -176,7 +177,11 @@ class Prediction:
     fragment_shape: str = "square"
 
     def to_json_dict(self) -> dict[str, Any]:
-        """The JSON keys of the command line (scalar predictions only)."""
+        """The JSON keys of the command line (scalar predictions only).
+
+        ``q_crit_mag`` repeats ``toomre_q_critical_magnetic`` under its former name for
+        one release (0.1.x), so that scripts reading the old key keep working.
+        """
 
         def num(q, unit=None):
             v = float(np.asarray(q.to_value(unit) if unit is not None else q.value))
@@ -190,7 +195,8 @@ class Prediction:
             "fragment_mass_convention": self.fragment_shape,
             "mass_to_flux": num(self.mass_to_flux),
             "toomre_q": num(self.toomre_q),
-            "q_crit_mag": num(self.q_crit_mag),
+            "toomre_q_critical_magnetic": num(self.toomre_q_critical_magnetic),
+            "q_crit_mag": num(self.toomre_q_critical_magnetic),     # former name, one release
             "field_mG": num(self.field, u.mG),
             "eta_ad_cm2_s": num(self.eta_ad, u.cm**2 / u.s),
             "eta_ohm_cm2_s": num(self.eta_ohm, u.cm**2 / u.s),
@@ -230,7 +236,7 @@ def predict(
     mu_gas: float = MU_GAS,
     fragment_shape: str = "square",
 ) -> Prediction:
-    """Predict the preferred fragment spacing, growth time and mass of a thin sheet.
+    """Predict the fastest-growing wavelength, growth time and fragment mass of a thin sheet.
 
     Every argument may be a Quantity (scalar or array) or a string such as
     ``"80 g/cm2"``; arrays broadcast against each other, so one call evaluates
@@ -335,7 +341,7 @@ def prediction_from_conditions(c: Conditions) -> Prediction:
         thermal_wavelength=(b(out.thermal_wavelength) / AU) * u.au,
         thermal_mass=(b(out.thermal_mass) / M_JUP) * u.M_jup,
         toomre_q=b(out.toomre_q) * u.dimensionless_unscaled,
-        q_crit_mag=b(out.q_crit_mag) * u.dimensionless_unscaled,
+        toomre_q_critical_magnetic=b(out.toomre_q_critical_magnetic) * u.dimensionless_unscaled,
         mass_to_flux=b(mu0) * u.dimensionless_unscaled,
         field=(b(b_field) * 1e3) * u.mG,
         eta_ad=b(e_ad) * u.cm**2 / u.s,

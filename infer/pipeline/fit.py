@@ -89,6 +89,7 @@ def fit_region(region, config: RunConfig, out_dir: str | Path, *, catalog_bytes:
     """
     out = Path(out_dir)
     rh = run_hash(catalog_bytes, region.name, config)
+    model = build_model(config, Observations.from_region(region))   # refuse bad input first
     top = out                       # the outermost folder that prepare_out_dir may create
     while not top.parent.exists() and top.parent != top:
         top = top.parent
@@ -97,8 +98,6 @@ def fit_region(region, config: RunConfig, out_dir: str | Path, *, catalog_bytes:
         write_json(out / RUN_FILE, {"run_hash": rh, "region": region.name,
                                     "source": str(Path(region.source).resolve())})
         atomic_write_text(out / "config.toml", config.to_toml())
-        obs = Observations.from_region(region)
-        model = build_model(config, obs)
         sample = run_sampler(model, names=model.names, prior_draws=model.prior_sample,
                              options=config.sampler, chain_path=out / "chain.h5", run_hash=rh,
                              resume=resume, progress=progress,
@@ -127,6 +126,9 @@ def finish_outputs(out: Path, model: Model, sample: SampleResult, *, region, con
         "fragment_mass_convention": ("Sigma * lambda_m^2" if config.model.fragment_shape == "square"
                                      else "Sigma * pi * (lambda_m / 2)^2"),
         "spacing": config.model.spacing,
+        "selection": model.selection_text(),
+        "derived_quantities": _derived_where(config),
+        "measurements": "; ".join(m.describe() for m in model.measurements) or "none",
         "converged": bool(sample.converged),
         "intervals": "central posterior quantiles: p16-p84 (68%), p02_5-p97_5 (95%)",
     }
@@ -136,8 +138,7 @@ def finish_outputs(out: Path, model: Model, sample: SampleResult, *, region, con
                        resumed_from=sample.resumed_from, run_hash=sample.chain.run_hash,
                        extra={"region": region.name, "n_clumps": len(region.ids),
                               "n_spacings": model.obs.n_spacings,
-                              "map": dict(zip(model.names, map(float, np.exp(sample.chain.info.get(
-                                  "map", [np.nan] * model.ndim))), strict=False))})
+                              "map": _map_values(model, sample)})
     write_json(out / "diagnostics.json", diag)
     _write_pointwise(out, model, post)
     if plots:
@@ -145,6 +146,26 @@ def finish_outputs(out: Path, model: Model, sample: SampleResult, *, region, con
 
         write_figures(out, post=post, model=model, region=region)
     return FitOutcome(out, model, post, sample, table, notes, diag)
+
+
+def _derived_where(config: RunConfig) -> str:
+    """Where the derived quantities of the summary hold (one radius, or the reference radius)."""
+    p = config.priors
+    if config.model.profile == "power-law":
+        return (f"at reference_radius = {p['reference_radius'].value:.4g} au (power-law profile; "
+                f"the radial figure shows them against radius)")
+    if "radius" in p and p["radius"].fixed:
+        return f"at radius = {p['radius'].value:.4g} au (local conditions)"
+    return "for the local conditions of the priors"
+
+
+def _map_values(model: Model, sample: SampleResult) -> dict[str, float]:
+    """The maximum-a-posteriori parameters found before sampling, in their canonical units."""
+    th = np.asarray(sample.chain.info.get("map", [np.nan] * model.ndim), dtype=float)
+    if th.size != model.ndim:
+        return {}
+    v = model.values(th[None, :])
+    return {n: float(v[n][0]) for n in model.names}
 
 
 def _write_pointwise(out: Path, model: Model, post: Posterior, n_max: int = 2000) -> None:
