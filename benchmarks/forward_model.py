@@ -67,6 +67,7 @@ from scipy.optimize import minimize_scalar
 from infer import predict
 from infer.constants import AU, M_SUN, YR, G
 from infer.physics import dispersion
+from infer.physics.conditions import derive_conditions, kernel_inputs
 from infer.physics.sheet import equilibrium
 
 
@@ -139,11 +140,11 @@ def run_baseline(c: dict[str, np.ndarray], n: int):
 
 
 def kernel_params(c: dict[str, np.ndarray], idx) -> dispersion.SheetParams:
-    """Dimensionless parameters of the sets ``idx``, as infer.predict.forward makes them."""
-    eq = equilibrium(c["sigma"][idx], c["temperature"][idx])
-    return dispersion.sheet_params(
-        inv_mu2=1.0 / c["mu0"][idx] ** 2, p_ext=eq.p_tilde, kappa=c["kappa"][idx] * eq.time,
-        eta=(c["eta_ad"][idx] + c["eta_ohm"][idx]) * eq.time / eq.length**2)
+    """Dimensionless parameters of the sets ``idx``, as infer.physics.predict.forward makes them."""
+    cond = derive_conditions(sigma=c["sigma"][idx], temperature=c["temperature"][idx], p_ext=0.0,
+                             kappa=c["kappa"][idx], mu0=c["mu0"][idx], eta_ad=c["eta_ad"][idx],
+                             eta_ohm=c["eta_ohm"][idx])
+    return kernel_inputs(cond)
 
 
 def per_call(fn, *, budget: float = 0.2, repeat: int = 5) -> float:

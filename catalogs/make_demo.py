@@ -34,9 +34,7 @@ import numpy as np
 from astropy.coordinates import SkyCoord
 from astropy.table import Table
 
-from infer import predict
-from infer.catalog.dustmass import dust_flux
-from infer.catalog.geometry import project_to_sky
+from infer import dust_flux, predict, project_to_sky
 
 SEED = 20240611
 HERE = Path(__file__).resolve().parent

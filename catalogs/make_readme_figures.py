@@ -1,7 +1,8 @@
 """Write the small PNG figures of the README walkthrough into docs/figures/.
 
     python catalogs/make_readme_figures.py                 # fits the demo disk first (a few minutes)
-    python catalogs/make_readme_figures.py --fit runs/demo_disk   # or reuse a finished fit
+    python catalogs/make_readme_figures.py --fit runs/demo_disk --rings-fit runs/demo_rings
+                                                           # or reuse finished fits
 
 Figures (each kept below ~150 kB: modest dpi, 256-colour palette PNG):
 
@@ -11,6 +12,8 @@ Figures (each kept below ~150 kB: modest dpi, 256-colour palette PNG):
 * ``demo_spectrum.png``      the forward-model spectrum (as ``infer spectrum`` draws it) for the
                              catalog's local conditions at the posterior medians of the
                              mass-to-flux ratio and ionization fraction
+* ``demo_radial.png``        radial profile of the ringed demo disk (demo_rings), posterior
+                             bands of the wavelength and fragment mass against radius
 
 The script prints the equivalent ``infer spectrum`` command for the last one.
 """
@@ -28,6 +31,8 @@ HERE = Path(__file__).resolve().parent
 ROOT = HERE.parent
 CATALOG = HERE / "demo_disk.ecsv"
 CONFIG = HERE / "demo_disk.toml"
+RINGS_CATALOG = HERE / "demo_rings.ecsv"
+RINGS_CONFIG = HERE / "demo_rings.toml"
 
 
 def _png(fig, dpi: int) -> bytes:
@@ -42,35 +47,44 @@ def _png(fig, dpi: int) -> bytes:
     return out.getvalue()
 
 
-def _fit(fit_dir: Path | None, max_steps: int, work: Path) -> Path:
+def _fit(fit_dir: Path | None, max_steps: int, work: Path, catalog: Path = CATALOG,
+         config_path: Path = CONFIG) -> Path:
     if fit_dir is not None:
         return fit_dir
-    from infer.inference.config import load_config
-    from infer.pipeline.fit import fit_catalog
+    from infer import fit_catalog, load_config
 
-    config = load_config(CONFIG).with_sampler(max_steps=max_steps)
-    out = work / "demo_disk"
-    print(f"fitting {CATALOG.name} ({config.sampler.walkers} walkers, up to {max_steps} steps) ...",
+    config = load_config(config_path).with_sampler(max_steps=max_steps)
+    out = work / catalog.stem
+    print(f"fitting {catalog.name} ({config.sampler.walkers} walkers, up to {max_steps} steps) ...",
           flush=True)
-    fit_catalog(CATALOG, config, out, progress=False, plots=False)
+    fit_catalog(catalog, config, out, progress=False, plots=False)
     return out
 
 
 def main(argv: list[str] | None = None) -> int:
     ap = argparse.ArgumentParser(description=__doc__.splitlines()[0])
     ap.add_argument("--fit", type=Path, default=None, help="a finished fit folder of the demo disk")
+    ap.add_argument("--rings-fit", type=Path, default=None,
+                    help="a finished fit folder of the ringed demo disk (demo_rings)")
     ap.add_argument("--out", type=Path, default=ROOT / "docs" / "figures", help="output folder")
     ap.add_argument("--max-steps", type=int, default=3000, help="chain length when fitting here")
     args = ap.parse_args(argv)
 
     import numpy as np
 
-    from infer.inference.posterior import posterior_from_chain
-    from infer.outputs.band import band_figure, spectrum_band
-    from infer.outputs.figures import corner_figure, predictive_figure
-    from infer.outputs.files import atomic_write_bytes
-    from infer.physics.spectrum import growth_spectrum, spectrum_figure
-    from infer.pipeline.fit import load_fit
+    from infer import (
+        band_figure,
+        corner_figure,
+        growth_spectrum,
+        load_fit,
+        posterior_from_chain,
+        predictive_figure,
+        radial_band,
+        radial_figure,
+        spectrum_band,
+        spectrum_figure,
+    )
+    from infer.outputs.files import atomic_write_bytes  # internal: the package's atomic file writer
 
     args.out.mkdir(parents=True, exist_ok=True)
     work = Path(tempfile.mkdtemp(prefix="readme_figures_"))
@@ -92,6 +106,11 @@ def main(argv: list[str] | None = None) -> int:
             cond["ionization"] = x_e
         spec = growth_spectrum(mass_to_flux=mu0, **cond)
         figures["demo_spectrum.png"] = (spectrum_figure(spec), 90)
+        _, rmodel, rregion, rchain, rtau = load_fit(_fit(args.rings_fit, args.max_steps, work,
+                                                         RINGS_CATALOG, RINGS_CONFIG))
+        rname = str(rregion.meta.get("object", rregion.name)).split(" (")[0]
+        rpost = posterior_from_chain(rmodel, rchain, rtau)
+        figures["demo_radial.png"] = (radial_figure(radial_band(rpost, rmodel), title=rname), 70)
         for fname, (fig, dpi) in figures.items():
             data = _png(fig, dpi)
             atomic_write_bytes(args.out / fname, data)

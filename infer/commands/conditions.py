@@ -6,6 +6,7 @@ import argparse
 import re
 from typing import Any
 
+from ..constants import MU_GAS
 from ..errors import InferError
 
 __all__ = ["add_condition_arguments", "conditions_from_args", "OPTIONS"]
@@ -34,8 +35,8 @@ def add_condition_arguments(parser: argparse.ArgumentParser) -> None:
     group = parser.add_argument_group("local conditions (a number and a unit as one string)")
     for key, (opt, help_text) in OPTIONS.items():
         group.add_argument(opt, dest=key, metavar="VALUE", default=None, help=help_text)
-    group.add_argument("--mu-gas", dest="mu_gas", type=float, default=2.33,
-                       help="mean mass per particle in m_H (default 2.33)")
+    group.add_argument("--mu-gas", dest="mu_gas", type=float, default=MU_GAS,
+                       help=f"mean mass per particle in m_H (default {MU_GAS:g})")
     group.add_argument("--fragment-shape", choices=["square", "disk"], default="square",
                        help="fragment mass as Sigma*lambda^2 (square, default) "
                             "or Sigma*pi*(lambda/2)^2 (disk)")

@@ -18,6 +18,7 @@ from typing import Any
 import astropy.units as u
 import numpy as np
 
+from ..constants import MU_GAS
 from ..errors import ConfigError
 from ..units import parse_quantity
 from .measurements import Measurement, parse_measurements
@@ -92,7 +93,7 @@ class ModelOptions:
     diffusion: str = "ionization"
     spacing: str = "mst"
     fragment_shape: str = "square"
-    mu_gas: float = 2.33
+    mu_gas: float = MU_GAS
     use_spacings: bool = True
     use_masses: bool = True
     growth_time_max: float | None = None

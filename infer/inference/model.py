@@ -31,9 +31,9 @@ from dataclasses import dataclass
 import astropy.units as u
 import numpy as np
 
-from ..constants import AU, M_JUP, M_SUN, YR, G
+from ..constants import AU, M_JUP, M_SUN, YR
 from ..errors import InferError
-from ..physics.microphysics import diffusivities
+from ..physics.conditions import Conditions, derive_conditions, keplerian_kappa
 from ..physics.predict import Forward, forward
 from ..physics.sheet import field_from_mass_to_flux
 from ..quantities import DERIVED_NAMES, QUANTITIES
@@ -242,42 +242,34 @@ class Model:
         return np.column_stack([to_sampled(k, np.asarray(values[k], dtype=float))
                                 for k in self.names])
 
-    def physical(self, v: Mapping[str, np.ndarray]) -> dict[str, np.ndarray]:
-        """cgs conditions from parameter values: sigma, T, mu0, field, kappa, p_ext, diffusivities."""
+    def conditions(self, v: Mapping[str, np.ndarray]) -> Conditions:
+        """The resolved cgs conditions of parameter values (canonical units), arrays (n,).
+
+        Keplerian kappa from ``stellar_mass`` (solMass) and ``radius`` (au) unless ``kappa``
+        is a parameter; the diffusivities from ``ionization``, or ``eta_ad`` and ``eta_ohm``,
+        or none (``diffusion = "ideal"``), as the run configuration says.
+        """
         sigma = v["surface_density"]
-        temp = v["temperature"]
-        mu0 = v["mass_to_flux"]
-        field = field_from_mass_to_flux(sigma, mu0)
         if "kappa" in v:
             kappa = v["kappa"]
         else:
-            kappa = np.sqrt(G * v["stellar_mass"] * M_SUN / (v["radius"] * AU) ** 3)
-        p_ext = v["external_pressure"]
-        return {"sigma": sigma, "temperature": temp, "mu0": mu0, "field": field,
-                "kappa": kappa, "p_ext": p_ext}
-
-    def diffusion(self, phys: Mapping[str, np.ndarray], v: Mapping[str, np.ndarray], rho_c):
-        """(eta_ad, eta_ohm, x_e, tau_ni) in cgs for the configured diffusion mode."""
+            kappa = keplerian_kappa(v["stellar_mass"], v["radius"], mass_unit=M_SUN,
+                                    length_unit=AU)
         mode = self.options.diffusion
-        n = phys["sigma"].shape
         if mode == "ionization":
-            x_e = v["ionization"]
-            e_ad, e_ohm, tau = diffusivities(x_e=x_e, field=phys["field"], rho=rho_c,
-                                             temperature=phys["temperature"],
-                                             mu_gas=self.options.mu_gas)
-            return e_ad, e_ohm, x_e, tau
-        if mode == "free":
-            e_ad, e_ohm = v["eta_ad"], v["eta_ohm"]
-            va2 = phys["field"] ** 2 / (4.0 * np.pi * rho_c)
-            with np.errstate(divide="ignore", invalid="ignore"):
-                tau = e_ad / va2
-            return e_ad, e_ohm, np.full(n, np.nan), tau
-        zero = np.zeros(n)
-        return zero, zero, np.full(n, np.nan), np.full(n, np.nan)
+            diffusion = {"ionization": v["ionization"]}
+        elif mode == "free":
+            diffusion = {"eta_ad": v["eta_ad"], "eta_ohm": v["eta_ohm"]}
+        else:
+            zero = np.zeros(sigma.shape)
+            diffusion = {"eta_ad": zero, "eta_ohm": zero}
+        return derive_conditions(sigma=sigma, temperature=v["temperature"],
+                                 p_ext=v["external_pressure"], kappa=kappa,
+                                 mu0=v["mass_to_flux"], mu_gas=self.options.mu_gas,
+                                 fragment_shape=self.options.fragment_shape, **diffusion)
 
-    def evaluate(self, theta, radii=None) -> tuple[dict[str, np.ndarray], dict[str, np.ndarray],
-                                                   Forward]:
-        """Values, physical conditions (with diffusivities) and the forward model for ``theta``.
+    def evaluate(self, theta, radii=None) -> tuple[dict[str, np.ndarray], Conditions, Forward]:
+        """Values, resolved conditions and the forward model for ``theta``.
 
         With ``profile = "power-law"`` the model is evaluated at ``reference_radius`` (radii
         None: arrays (n,)), or at every radius of ``radii`` (au, (R,)) for every row, as flat
@@ -286,18 +278,8 @@ class Model:
         v = self.values(theta)
         if self.options.profile == "power-law":
             v = at_radii(v, radii)
-        phys = self.physical(v)
-        from ..physics.sheet import equilibrium
-
-        eq = equilibrium(phys["sigma"], phys["temperature"], phys["p_ext"], mu_gas=self.options.mu_gas)
-        e_ad, e_ohm, x_e, tau = self.diffusion(phys, v, eq.rho_c)
-        phys.update(eta_ad=e_ad, eta_ohm=e_ohm, x_e=x_e, tau_ni=tau)
-        with np.errstate(divide="ignore"):
-            inv_mu2 = 1.0 / phys["mu0"] ** 2
-        fw = forward(phys["sigma"], phys["temperature"], inv_mu2=inv_mu2, eta_total=e_ad + e_ohm,
-                     kappa=phys["kappa"], p_ext=phys["p_ext"], mu_gas=self.options.mu_gas,
-                     fragment_shape=self.options.fragment_shape, eq=eq)
-        return v, phys, fw
+        c = self.conditions(v)
+        return v, c, forward(c)
 
     # --------------------------------------------------------------- densities
     def log_prior(self, theta) -> np.ndarray:
@@ -453,14 +435,19 @@ class Model:
     def derived(self, theta) -> dict[str, np.ndarray]:
         """Derived quantities of each row, in the units of :data:`DERIVED_UNITS`."""
         theta = np.atleast_2d(np.asarray(theta, dtype=float))
-        _, phys, fw = self.evaluate(theta)
+        _, c, fw = self.evaluate(theta)
+        n = fw.wavelength.shape
+        tau = c.tau_ni
+        if self.options.diffusion == "free":     # eta_AD = v_A^2 tau_ni
+            with np.errstate(divide="ignore", invalid="ignore"):
+                tau = c.eta_ad / c.alfven_speed_sq
         return {
-            "field": phys["field"] * 1e3,
-            "eta_ad": phys["eta_ad"],
-            "eta_ohm": phys["eta_ohm"],
-            "eta_total": phys["eta_ad"] + phys["eta_ohm"],
-            "ionization": phys["x_e"],
-            "tau_ni": phys["tau_ni"] / YR,
+            "field": c.field * 1e3,
+            "eta_ad": c.eta_ad,
+            "eta_ohm": c.eta_ohm,
+            "eta_total": c.eta_total,
+            "ionization": np.broadcast_to(c.x_e, n).copy(),
+            "tau_ni": np.broadcast_to(tau, n) / YR,
             "wavelength": fw.wavelength / AU,
             "growth_time": fw.growth_time / YR,
             "fragment_mass": fw.fragment_mass / M_JUP,

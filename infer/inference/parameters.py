@@ -21,10 +21,10 @@ from dataclasses import dataclass, field
 from typing import Any
 
 import numpy as np
-from scipy import stats
 
 from ..errors import ConfigError
 from ..physics.profile import power_law
+from .distributions import SIGNED, Distribution
 
 __all__ = ["LINEAR", "INDEX_OF", "SignedPrior", "parse_signed_prior", "to_values", "to_sampled",
            "log_prior_sampled", "RadialPlan", "radial_plan", "at_radii"]
@@ -41,7 +41,8 @@ INDEX_OF: dict[str, str] = {
     "ionization": "ionization_index",
 }
 
-_DISTS = {"uniform": ("low", "high"), "normal": ("mean", "sd")}
+#: distributions of a power-law index (on the real line) -> their keys
+_DISTS = {k: cls.keys for k, cls in SIGNED.items() if k != "fixed"}
 
 
 @dataclass(frozen=True)
@@ -53,11 +54,17 @@ class SignedPrior:
     name : str
     dist : {"fixed", "uniform", "normal"}
     args : dict of float
+    distribution : Distribution
+        The distribution object (:data:`~infer.inference.distributions.SIGNED`).
     """
 
     name: str
     dist: str
     args: Mapping[str, float] = field(default_factory=dict)
+    distribution: Distribution = field(init=False, repr=False, compare=False)
+
+    def __post_init__(self) -> None:
+        object.__setattr__(self, "distribution", SIGNED[self.dist](**self.args))
 
     @property
     def fixed(self) -> bool:
@@ -68,43 +75,26 @@ class SignedPrior:
         return float(self.args["value"])
 
     def support(self) -> tuple[float, float]:
-        a = self.args
-        if self.fixed:
-            return a["value"], a["value"]
-        if self.dist == "uniform":
-            return a["low"], a["high"]
-        return -np.inf, np.inf
+        return self.distribution.support()
 
     def logpdf(self, x) -> np.ndarray:
-        """log density of x (constants dropped), -inf outside the support."""
+        """Normalised log density of x, -inf outside the support."""
+        return self.distribution.logpdf(x)
+
+    def logpdf_sampled(self, x) -> np.ndarray:
+        """log density of x (the sampled coordinate itself; constants dropped), -inf outside
+        the support and for non-finite x."""
         x = np.asarray(x, dtype=float)
-        a = self.args
-        with np.errstate(invalid="ignore"):
-            if self.dist == "uniform":
-                lp = np.where((x >= a["low"]) & (x <= a["high"]), 0.0, -np.inf)
-            elif self.dist == "normal":
-                lp = -0.5 * ((x - a["mean"]) / a["sd"]) ** 2
-            else:  # pragma: no cover - fixed priors are not sampled
-                raise ValueError(f"prior {self.name}: a fixed value has no density")
-        return np.where(np.isfinite(x), lp, -np.inf)
+        return np.where(np.isfinite(x), self.distribution.logpdf_unnorm(x), -np.inf)
 
     def ppf(self, q) -> np.ndarray:
-        q = np.asarray(q, dtype=float)
-        a = self.args
-        if self.fixed:
-            return np.full(q.shape, a["value"])
-        if self.dist == "uniform":
-            return a["low"] + q * (a["high"] - a["low"])
-        return stats.norm.ppf(q, loc=a["mean"], scale=a["sd"])
+        return self.distribution.ppf(q)
 
     def sample(self, rng: np.random.Generator, n: int) -> np.ndarray:
-        return self.ppf(rng.uniform(1e-9, 1.0 - 1e-9, size=n))
+        return self.distribution.sample(rng, n)
 
     def describe(self) -> str:
-        a = self.args
-        if self.fixed:
-            return f"fixed at {a['value']:.4g}"
-        return f"{self.dist}({', '.join(f'{k} {v:.4g}' for k, v in a.items())})"
+        return self.distribution.describe()
 
     def to_config(self) -> dict[str, Any]:
         if self.fixed:
@@ -181,7 +171,7 @@ def to_sampled(name: str, x: np.ndarray) -> np.ndarray:
 def log_prior_sampled(prior, u_col: np.ndarray) -> np.ndarray:
     """log prior density in the sampled coordinate (with the Jacobian of ln for positive ones)."""
     if prior.name in LINEAR:
-        return prior.logpdf(u_col)
+        return prior.logpdf_sampled(u_col)
     return prior.logpdf_ln(u_col)
 
 

@@ -3,7 +3,8 @@
 Every sampled parameter is positive and is sampled as u = ln x; the
 log-density :meth:`Prior.logpdf_ln` therefore includes the Jacobian
 ``+ ln x``. Values are held in each parameter's canonical unit (see
-:data:`PARAMETERS`).
+:data:`PARAMETERS`). The distributions themselves, one class each, are in
+:mod:`infer.inference.distributions`; this module reads the config's syntax.
 """
 
 from __future__ import annotations
@@ -14,11 +15,11 @@ from typing import Any
 
 import astropy.units as u
 import numpy as np
-from scipy import special, stats
 
 from ..errors import ConfigError
 from ..quantities import PARAMETER_NAMES, QUANTITIES
 from ..units import parse_quantity
+from .distributions import POSITIVE, Distribution
 
 __all__ = ["ParamInfo", "PARAMETERS", "Prior", "parse_prior", "DISTRIBUTIONS"]
 
@@ -36,22 +37,16 @@ class ParamInfo:
 PARAMETERS: dict[str, ParamInfo] = {k: ParamInfo(QUANTITIES[k].unit, QUANTITIES[k].label,
                                                  QUANTITIES[k].allow_zero) for k in PARAMETER_NAMES}
 
-#: distribution name -> its keys (all required)
-DISTRIBUTIONS: dict[str, tuple[str, ...]] = {
-    "uniform": ("low", "high"),
-    "loguniform": ("low", "high"),
-    "normal": ("mean", "sd"),
-    "lognormal": ("median", "sigma_dex"),
-    "halfnormal": ("scale",),
-    "truncnormal": ("mean", "sd", "low", "high"),
-}
+#: distribution name -> its keys (all required), from the classes of :data:`POSITIVE`
+DISTRIBUTIONS: dict[str, tuple[str, ...]] = {k: cls.keys for k, cls in POSITIVE.items()
+                                             if k != "fixed"}
 
-_LN10 = np.log(10.0)
+_SCATTERS = ("spacing_scatter", "mass_scatter")
 
 
 @dataclass(frozen=True)
 class Prior:
-    """A fixed value or a distribution for one parameter, in its canonical unit.
+    """A fixed value or a distribution for one positive parameter, in its canonical unit.
 
     Attributes
     ----------
@@ -61,11 +56,18 @@ class Prior:
         ``"fixed"`` or a key of :data:`DISTRIBUTIONS`.
     args : dict
         Distribution arguments (floats in the canonical unit; ``sigma_dex`` in dex).
+    distribution : Distribution
+        The distribution object (:data:`~infer.inference.distributions.POSITIVE`), built
+        from ``dist`` and ``args``.
     """
 
     name: str
     dist: str
     args: Mapping[str, float] = field(default_factory=dict)
+    distribution: Distribution = field(init=False, repr=False, compare=False)
+
+    def __post_init__(self) -> None:
+        object.__setattr__(self, "distribution", POSITIVE[self.dist](**self.args))
 
     @property
     def fixed(self) -> bool:
@@ -77,79 +79,30 @@ class Prior:
         return float(self.args["value"])
 
     def support(self) -> tuple[float, float]:
-        """(low, high) of the support in x (positive part only)."""
-        a = self.args
-        if self.dist in ("uniform", "loguniform", "truncnormal"):
-            return max(a["low"], 0.0), a["high"]
-        if self.fixed:
-            return a["value"], a["value"]
-        return 0.0, np.inf
+        """(low, high) of the support in x."""
+        return self.distribution.support()
 
-    def logpdf_ln(self, lnx: np.ndarray) -> np.ndarray:
+    def logpdf(self, x) -> np.ndarray:
+        """Normalised log density in x (-inf outside the support)."""
+        return self.distribution.logpdf(x)
+
+    def logpdf_ln(self, lnx) -> np.ndarray:
         """log density of u = ln x (unnormalised constants dropped), -inf outside support."""
-        lnx = np.asarray(lnx, dtype=float)
-        with np.errstate(over="ignore", invalid="ignore"):
-            x = np.exp(lnx)
-        a = self.args
-        d = self.dist
-        with np.errstate(divide="ignore", invalid="ignore", over="ignore"):
-            if d == "uniform":
-                lp = np.where((x >= a["low"]) & (x <= a["high"]), lnx, -np.inf)
-            elif d == "loguniform":
-                lp = np.where((x >= a["low"]) & (x <= a["high"]), 0.0, -np.inf)
-            elif d == "normal":
-                lp = -0.5 * ((x - a["mean"]) / a["sd"]) ** 2 + lnx
-            elif d == "truncnormal":
-                inside = (x >= a["low"]) & (x <= a["high"])
-                lp = np.where(inside, -0.5 * ((x - a["mean"]) / a["sd"]) ** 2 + lnx, -np.inf)
-            elif d == "lognormal":
-                s = a["sigma_dex"] * _LN10
-                lp = -0.5 * ((lnx - np.log(a["median"])) / s) ** 2
-            elif d == "halfnormal":
-                lp = -0.5 * (x / a["scale"]) ** 2 + lnx
-            else:  # pragma: no cover - fixed priors are not sampled
-                raise ValueError(f"prior {self.name}: a fixed value has no density")
-        return np.where(np.isfinite(lnx), lp, -np.inf)
+        return self.distribution.logpdf_ln(lnx)
 
     def ppf(self, q) -> np.ndarray:
         """Quantile function in x (used for starting points and prior widths)."""
-        q = np.asarray(q, dtype=float)
-        a = self.args
-        d = self.dist
-        if d == "fixed":
-            return np.full(q.shape, a["value"])
-        if d == "uniform":
-            return a["low"] + q * (a["high"] - a["low"])
-        if d == "loguniform":
-            return np.exp(np.log(a["low"]) + q * (np.log(a["high"]) - np.log(a["low"])))
-        if d == "lognormal":
-            return a["median"] * 10 ** (a["sigma_dex"] * special.ndtri(q))
-        if d == "halfnormal":
-            return a["scale"] * special.ndtri(0.5 + 0.5 * q)
-        # normal restricted to x > 0, truncnormal to [low, high] (and x > 0)
-        lo = a.get("low", 0.0)
-        lo = max(lo, 0.0)
-        hi = a.get("high", np.inf)
-        alpha, beta = (lo - a["mean"]) / a["sd"], (hi - a["mean"]) / a["sd"]
-        return stats.truncnorm.ppf(q, alpha, beta, loc=a["mean"], scale=a["sd"])
+        return self.distribution.ppf(q)
 
     def sample(self, rng: np.random.Generator, n: int) -> np.ndarray:
         """n draws in x."""
-        return self.ppf(rng.uniform(1e-9, 1.0 - 1e-9, size=n))
+        return self.distribution.sample(rng, n)
 
     def describe(self) -> str:
         """Human-readable description with units, e.g. ``loguniform(0.1, 10)``."""
         unit = PARAMETERS[self.name].unit if self.name in PARAMETERS else ""
         unit = f" {unit}" if unit and unit != "dex" else ""
-        a = self.args
-        if self.fixed:
-            return f"fixed at {a['value']:.4g}{unit}"
-        if self.dist == "lognormal":
-            return f"lognormal(median {a['median']:.4g}{unit}, {a['sigma_dex']:.3g} dex)"
-        if self.name in ("spacing_scatter", "mass_scatter"):
-            unit = " dex"
-        inner = ", ".join(f"{k} {v:.4g}" for k, v in a.items())
-        return f"{self.dist}({inner}){unit}"
+        return self.distribution.describe(unit, scatter=self.name in _SCATTERS)
 
     def to_config(self) -> dict[str, Any]:
         """The resolved TOML entry (numbers in the canonical unit, units spelled out)."""
@@ -266,21 +219,10 @@ def parse_prior(name: str, entry: Any) -> Prior:
             args[k] = _mean(name, entry[k], unit)
         else:
             args[k] = _number(name, k, entry[k], unit, allow_zero=k in ("low",))
-    if "low" in args and not args["low"] < args["high"]:
-        raise ConfigError(f"priors.{name}: low must be below high (got {args['low']:.4g} >= "
-                          f"{args['high']:.4g}); the prior has no support")
-    if dist == "loguniform" and args["low"] <= 0:
-        raise ConfigError(f"priors.{name}: loguniform needs low > 0")
-    if dist in ("normal", "truncnormal") and args["sd"] <= 0:
-        raise ConfigError(f"priors.{name}: sd must be positive")
+    POSITIVE[dist].check(f"priors.{name}", args)
     if name == "ionization" and args.get("high", 0.0) > 1.0:
         raise ConfigError(f"priors.{name}.high: an ionization fraction is at most 1, got "
                           f"{args['high']:.4g}")
-    if dist == "truncnormal" and args["high"] <= 0:
-        raise ConfigError(f"priors.{name}: the truncated range has no positive values")
-    if dist == "normal" and args["mean"] + 8 * args["sd"] <= 0:
-        raise ConfigError(f"priors.{name}: the normal prior has essentially no mass at positive "
-                          f"values; the parameter must be positive")
     return Prior(name, dist, args)
 
 

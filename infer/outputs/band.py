@@ -6,10 +6,9 @@ of the dimensionless kernel (an array of shape (n_samples, n_wavelengths)).
 Its pointwise median and 68% / 95% central intervals over the samples form
 the band; the observed clump spacings are drawn beside it as a rug.
 
-The dimensionless parameters are formed exactly as :func:`infer.physics.predict.forward`
-forms them from the physical conditions of :meth:`infer.inference.model.Model.evaluate`:
-L0 = c_s^2 / (2 pi G Sigma), t0 = c_s / (2 pi G Sigma), k~ = 2 pi L0 / lambda,
-kappa~ = kappa t0, eta~ = (eta_AD + eta_OD) t0 / L0^2, P~ = 2 P_ext / (pi G Sigma^2).
+The dimensionless parameters are those of :func:`infer.physics.conditions.kernel_inputs`
+for the conditions of :meth:`infer.inference.model.Model.evaluate` (the ones the likelihood
+uses), one row per sample; the wavenumber on the grid is k~ = 2 pi L0 / lambda.
 """
 
 from __future__ import annotations
@@ -23,7 +22,7 @@ from ..constants import AU, YR
 from ..inference.model import Model
 from ..inference.posterior import Posterior
 from ..physics import dispersion
-from ..physics.sheet import equilibrium
+from ..physics.conditions import kernel_inputs
 
 if TYPE_CHECKING:  # pragma: no cover - typing only
     from matplotlib.figure import Figure
@@ -85,18 +84,13 @@ def growth_rate_grid(model: Model, theta: np.ndarray, wavelength_au: np.ndarray)
     fw : infer.physics.predict.Forward
         The forward model of the same rows (fastest mode, band edges; cgs).
     """
-    _, phys, fw = model.evaluate(theta)
-    eq = equilibrium(phys["sigma"], phys["temperature"], phys["p_ext"], mu_gas=model.options.mu_gas)
-    t0, l0 = eq.time, eq.length
-    with np.errstate(divide="ignore"):
-        inv_mu2 = 1.0 / phys["mu0"] ** 2
-    p = dispersion.sheet_params(
-        inv_mu2=inv_mu2[:, None], p_ext=eq.p_tilde[:, None],
-        kappa=(np.asarray(phys["kappa"], dtype=float) * t0)[:, None],
-        eta=((phys["eta_ad"] + phys["eta_ohm"]) * t0 / l0**2)[:, None],
-    )
-    k = 2.0 * np.pi * l0[:, None] / (np.asarray(wavelength_au, dtype=float)[None, :] * AU)
-    rate = dispersion.growth_rate(k, p) / t0[:, None] * YR
+    _, c, fw = model.evaluate(theta)
+    p = kernel_inputs(c)
+    col = dispersion.SheetParams(p.inv_mu2[:, None], p.p_ext[:, None], p.kappa[:, None],
+                                 p.eta[:, None])
+    t0 = c.eq.time
+    k = 2.0 * np.pi * c.eq.length[:, None] / (np.asarray(wavelength_au, dtype=float)[None, :] * AU)
+    rate = dispersion.growth_rate(k, col) / t0[:, None] * YR
     return rate, fw
 
 

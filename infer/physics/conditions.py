@@ -1,28 +1,31 @@
-"""Local conditions of the sheet: validation and resolution to cgs arrays.
+"""Resolved local conditions of the sheet, and their one mapping onto the kernel's inputs.
 
-:func:`resolve_conditions` accepts every way the public API lets a user state
-the local conditions (surface or column density, field or mass-to-flux ratio,
-diffusivities or ionization, epicyclic frequency or a Keplerian orbit) as
-Quantity or strings, checks them, and returns one :class:`Conditions` of plain
-cgs arrays that broadcast together.
+:func:`derive_conditions` is the only place where the physics turns stated conditions
+into the complete set the model needs (docs/physics.md, "Inputs", "Equilibrium",
+"Microphysics"): the sheet's equilibrium (computed once and carried along), the field
+from the mass-to-flux ratio or the reverse, and the diffusivities from the ionization.
+:func:`keplerian_kappa` is the epicyclic frequency of a Keplerian orbit, and
+:func:`kernel_inputs` forms the dimensionless groups of docs/physics.md, "Dimensionless
+form". The public API (:func:`infer.physics.resolve.resolve_conditions`), the sampler's
+model, the growth spectrum and the posterior band all go through these three functions.
+
+Everything is plain cgs float arrays that broadcast like numpy, one entry per set of
+conditions (e.g. per posterior sample); nothing here validates user input.
 """
 
 from __future__ import annotations
 
-import functools
 from dataclasses import dataclass
-from typing import Any
 
-import astropy.units as u
 import numpy as np
 
-from ..constants import M_H, MU_GAS, MU_H2, G
-from ..errors import InferError
-from ..units import dimensionless, to_cgs
+from ..constants import MU_GAS, G
+from .dispersion import SheetParams, sheet_params
 from .microphysics import cosmic_ray_ionization, diffusivities
-from .sheet import equilibrium, field_from_mass_to_flux, mass_to_flux_ratio
+from .sheet import Equilibrium, equilibrium, field_from_mass_to_flux, mass_to_flux_ratio
 
-__all__ = ["Conditions", "resolve_conditions", "FRAGMENT_SHAPES"]
+__all__ = ["Conditions", "derive_conditions", "keplerian_kappa", "kernel_inputs",
+           "FRAGMENT_SHAPES"]
 
 #: fragment-mass conventions: mass of a wavelength-square, or of a disk of diameter lambda
 FRAGMENT_SHAPES = {"square": 1.0, "disk": np.pi / 4.0}
@@ -30,22 +33,34 @@ FRAGMENT_SHAPES = {"square": 1.0, "disk": np.pi / 4.0}
 
 @dataclass(frozen=True)
 class Conditions:
-    """Resolved local conditions, cgs arrays broadcasting to ``shape``.
+    """Resolved local conditions, cgs arrays broadcasting to :attr:`shape`.
 
     Attributes
     ----------
-    sigma : g cm^-2
-    temperature : K
-    p_ext : dyn cm^-2
-    mu0 : mass-to-flux ratio in critical units (inf without field)
-    field : G
-    kappa : s^-1
-    eta_ad, eta_ohm : cm^2 s^-1
-    x_e : ionization fraction (NaN when the diffusivities were given directly)
-    tau_ni : s (NaN when unknown)
-    mu_gas : mean particle mass in m_H
-    fragment_shape : "square" or "disk"
-    shape : broadcast shape
+    sigma : ndarray
+        Surface density, g cm^-2.
+    temperature : ndarray
+        Gas temperature, K.
+    p_ext : ndarray
+        External pressure, dyn cm^-2.
+    mu0 : ndarray
+        Mass-to-flux ratio in units of the critical value (inf without field).
+    field : ndarray
+        Vertical field, G.
+    kappa : ndarray
+        Epicyclic frequency, s^-1.
+    eta_ad, eta_ohm : ndarray
+        Ambipolar and Ohmic diffusivities, cm^2 s^-1.
+    x_e : ndarray
+        Ionization fraction (NaN when the diffusivities were given directly).
+    tau_ni : ndarray
+        Neutral-ion collision time, s (NaN when the ionization is unknown).
+    mu_gas : float
+        Mean mass per particle in units of m_H.
+    fragment_shape : str
+        "square" or "disk" (:data:`FRAGMENT_SHAPES`).
+    eq : Equilibrium
+        The sheet's vertical equilibrium for (sigma, temperature, p_ext, mu_gas).
     """
 
     sigma: np.ndarray
@@ -60,214 +75,139 @@ class Conditions:
     tau_ni: np.ndarray
     mu_gas: float
     fragment_shape: str
-    shape: tuple
+    eq: Equilibrium
+
+    @property
+    def shape(self) -> tuple[int, ...]:
+        """The broadcast shape of the arrays (ValueError if they do not broadcast)."""
+        return np.broadcast_shapes(*(np.shape(a) for a in (
+            self.sigma, self.temperature, self.p_ext, self.mu0, self.field, self.kappa,
+            self.eta_ad, self.eta_ohm, self.x_e)))
 
     @property
     def inv_mu2(self) -> np.ndarray:
-        """1 / mu0^2 (0 without field)."""
+        """1 / mu0^2 (0 without field, where mu0 is inf)."""
         with np.errstate(divide="ignore", over="ignore"):   # mu0 > 1e154: 1 / inf = 0
-            return np.where(np.isinf(self.mu0), 0.0, 1.0 / self.mu0**2)
+            return 1.0 / self.mu0**2
+
+    @property
+    def eta_total(self) -> np.ndarray:
+        """eta_AD + eta_OD, cm^2 s^-1 (the only combination the kernel sees)."""
+        return self.eta_ad + self.eta_ohm
+
+    @property
+    def alfven_speed_sq(self) -> np.ndarray:
+        """v_A^2 = B^2 / (4 pi rho_c) at the midplane, cm^2 s^-2."""
+        return self.field**2 / (4.0 * np.pi * self.eq.rho_c)
 
 
-def _positive(arr: np.ndarray, name: str, *, allow_zero: bool = False) -> np.ndarray:
-    bad = arr < 0.0 if allow_zero else arr <= 0.0
-    if np.any(bad):
-        what = "non-negative" if allow_zero else "positive"
-        raise InferError(f"{name}: must be {what}; got {float(arr[bad].ravel()[0])!r}")
-    return arr
+def keplerian_kappa(stellar_mass, radius, *, mass_unit: float = 1.0,
+                    length_unit: float = 1.0) -> np.ndarray:
+    """Epicyclic frequency of a Keplerian orbit, kappa = Omega = (G M / r^3)^1/2, s^-1.
 
+    Binney & Tremaine 2008, Galactic Dynamics, 2nd ed., sec. 3.2.3.
 
-def _one_of(name_a: str, a: Any, name_b: str, b: Any) -> None:
-    if a is not None and b is not None:
-        raise InferError(f"give either {name_a} or {name_b}, not both")
+    Parameters
+    ----------
+    stellar_mass : array_like
+        Stellar mass in units of ``mass_unit`` grams.
+    radius : array_like
+        Orbital radius in units of ``length_unit`` centimetres.
+    mass_unit, length_unit : float
+        Grams per unit of ``stellar_mass`` and centimetres per unit of ``radius``
+        (1 for cgs input; ``M_SUN`` and ``AU`` for the sampler's solar masses and au).
 
-
-def _quiet(func):
-    """Run ``func`` without floating-point warnings: extreme but finite inputs may overflow
-    on the way, and :func:`_check_range` then refuses them with an InferError."""
-
-    @functools.wraps(func)
-    def wrapper(*args, **kwargs):
-        with np.errstate(over="ignore", invalid="ignore", divide="ignore"):
-            return func(*args, **kwargs)
-
-    return wrapper
-
-
-@_quiet
-def resolve_conditions(
-    *,
-    surface_density: Any = None,
-    column_density: Any = None,
-    temperature: Any = None,
-    mass_to_flux: Any = None,
-    field: Any = None,
-    eta_ad: Any = None,
-    eta_ohm: Any = None,
-    ionization: Any = None,
-    cosmic_ray_rate: Any = None,
-    kappa: Any = None,
-    stellar_mass: Any = None,
-    radius: Any = None,
-    external_pressure: Any = 0.0 * u.dyn / u.cm**2,
-    mu_gas: float = MU_GAS,
-    fragment_shape: str = "square",
-) -> Conditions:
-    """Validate the conditions and resolve them to cgs arrays.
-
-    Takes the same arguments as :func:`infer.physics.predict`; see there.
-
-    Raises
-    ------
-    InferError
-        (a ValueError) naming the argument and what to pass.
+    Returns
+    -------
+    ndarray
+        s^-1, the broadcast shape of the inputs.
     """
-    _check_shapes(surface_density=surface_density, column_density=column_density,
-                  temperature=temperature, mass_to_flux=mass_to_flux, field=field, eta_ad=eta_ad,
-                  eta_ohm=eta_ohm, ionization=ionization, cosmic_ray_rate=cosmic_ray_rate,
-                  kappa=kappa, stellar_mass=stellar_mass, radius=radius,
-                  external_pressure=external_pressure)
-    if fragment_shape not in FRAGMENT_SHAPES:
-        raise InferError(f"fragment_shape: must be one of {sorted(FRAGMENT_SHAPES)}, "
-                         f"got {fragment_shape!r}")
-    if not (np.isfinite(mu_gas) and mu_gas > 0):
-        raise InferError(f"mu_gas: must be a positive number, got {mu_gas!r}")
-    _one_of("surface_density", surface_density, "column_density", column_density)
-    if surface_density is None and column_density is None:
-        raise InferError("surface_density: required (or give column_density), e.g. '80 g/cm2'")
-    if surface_density is not None:
-        sigma = _positive(to_cgs(surface_density, name="surface_density", unit=u.g / u.cm**2),
-                          "surface_density")
-    else:
-        ncol = _positive(to_cgs(column_density, name="column_density", unit=u.cm**-2),
-                         "column_density")
-        sigma = MU_H2 * M_H * ncol
-    if temperature is None:
-        raise InferError("temperature: required, e.g. '40 K'")
-    temp = _positive(to_cgs(temperature, name="temperature", unit=u.K), "temperature")
-    p_ext = _positive(to_cgs(external_pressure, name="external_pressure", unit=u.dyn / u.cm**2),
-                      "external_pressure", allow_zero=True)
+    return np.sqrt(G * stellar_mass * mass_unit / (radius * length_unit) ** 3)
 
-    _one_of("field", field, "mass_to_flux", mass_to_flux)
+
+def derive_conditions(*, sigma, temperature, p_ext, kappa, mu0=None, field=None,
+                      ionization=None, cosmic_ray_rate=None, eta_ad=None, eta_ohm=None,
+                      mu_gas: float = MU_GAS, fragment_shape: str = "square") -> Conditions:
+    """The complete conditions, with their equilibrium, from stated cgs values.
+
+    Give at most one of ``mu0`` and ``field`` (neither: no field), and either the
+    ionization (``ionization`` or ``cosmic_ray_rate``) or the diffusivities (``eta_ad``,
+    ``eta_ohm``, each 0 when omitted). No validation: see
+    :func:`infer.physics.resolve.resolve_conditions` for user input.
+
+    Parameters
+    ----------
+    sigma : array_like
+        Surface density, g cm^-2, shape (n,) or broadcastable.
+    temperature : array_like
+        K.
+    p_ext : array_like
+        External pressure, dyn cm^-2.
+    kappa : array_like
+        Epicyclic frequency, s^-1 (:func:`keplerian_kappa` for a Keplerian disk).
+    mu0 : array_like, optional
+        Mass-to-flux ratio in critical units; the field is B = 2 pi G^1/2 Sigma / mu0.
+    field : array_like, optional
+        Vertical field, G; then mu0 = 2 pi G^1/2 Sigma / B.
+    ionization : array_like, optional
+        x_e = x_i; derives eta_AD, eta_OD and tau_ni at the midplane density.
+    cosmic_ray_rate : array_like, optional
+        Cosmic-ray ionization rate, s^-1; x_e from ionization equilibrium.
+    eta_ad, eta_ohm : array_like, optional
+        Diffusivities, cm^2 s^-1, when the ionization is not given.
+    mu_gas : float
+        Mean mass per particle in units of m_H.
+    fragment_shape : {"square", "disk"}
+
+    Returns
+    -------
+    Conditions
+    """
+    f8 = float
+    sigma, temperature = np.asarray(sigma, dtype=f8), np.asarray(temperature, dtype=f8)
+    eq = equilibrium(sigma, temperature, p_ext, mu_gas=mu_gas)
     if field is not None:
-        b_field = _positive(to_cgs(field, name="field", unit=u.G), "field", allow_zero=True)
-        mu0 = mass_to_flux_ratio(sigma, b_field)
-    elif mass_to_flux is not None:
-        mu0 = _positive(_ratio(mass_to_flux, "mass_to_flux"), "mass_to_flux")
-        b_field = field_from_mass_to_flux(sigma, mu0)
+        field = np.asarray(field, dtype=f8)
+        mu0 = mass_to_flux_ratio(sigma, field)
+    elif mu0 is not None:
+        mu0 = np.asarray(mu0, dtype=f8)
+        field = field_from_mass_to_flux(sigma, mu0)
     else:
-        b_field = np.zeros(())
-        mu0 = np.full((), np.inf)
-
-    if kappa is not None and (stellar_mass is not None or radius is not None):
-        raise InferError("give either kappa or stellar_mass with radius, not both")
-    if kappa is not None:
-        kap = _positive(to_cgs(kappa, name="kappa", unit=1 / u.s), "kappa", allow_zero=True)
-    elif stellar_mass is not None or radius is not None:
-        if stellar_mass is None or radius is None:
-            raise InferError("stellar_mass and radius: give both for a Keplerian disk "
-                             "(kappa = sqrt(G M / r^3))")
-        mstar = _positive(to_cgs(stellar_mass, name="stellar_mass", unit=u.g), "stellar_mass")
-        rad = _positive(to_cgs(radius, name="radius", unit=u.cm), "radius")
-        kap = np.sqrt(G * mstar / rad**3)
+        field, mu0 = np.zeros(()), np.full((), np.inf)
+    if cosmic_ray_rate is not None:
+        ionization = cosmic_ray_ionization(eq.rho_c, cosmic_ray_rate, mu_gas=mu_gas)
+    if ionization is not None:     # the results of numpy arithmetic: float arrays
+        x_e = np.asarray(ionization, dtype=f8)
+        eta_ad, eta_ohm, tau = diffusivities(x_e=x_e, field=field, rho=eq.rho_c,
+                                             temperature=temperature, mu_gas=mu_gas)
     else:
-        kap = np.zeros(())
-
-    eq = equilibrium(sigma, temp, p_ext, mu_gas=mu_gas)
-    if ionization is not None or cosmic_ray_rate is not None:
-        for nm, val in (("eta_ad", eta_ad), ("eta_ohm", eta_ohm)):
-            if val is not None:
-                raise InferError(f"give either ionization (or cosmic_ray_rate) or {nm}, not both")
-        _one_of("ionization", ionization, "cosmic_ray_rate", cosmic_ray_rate)
-        if ionization is not None:
-            x_e = _positive(_ratio(ionization, "ionization"), "ionization")
-            if np.any(x_e > 1.0):
-                raise InferError(f"ionization: must be at most 1 (a fraction n_e / n_n); "
-                                 f"got {float(np.max(x_e))!r}")
-        else:
-            zeta = _positive(to_cgs(cosmic_ray_rate, name="cosmic_ray_rate", unit=1 / u.s),
-                             "cosmic_ray_rate")
-            x_e = cosmic_ray_ionization(eq.rho_c, zeta, mu_gas=mu_gas)
-        e_ad, e_ohm, tau = diffusivities(x_e=x_e, field=b_field, rho=eq.rho_c,
-                                         temperature=temp, mu_gas=mu_gas)
-    else:
-        e_ad = (np.zeros(()) if eta_ad is None else
-                _positive(to_cgs(eta_ad, name="eta_ad", unit=u.cm**2 / u.s), "eta_ad",
-                          allow_zero=True))
-        e_ohm = (np.zeros(()) if eta_ohm is None else
-                 _positive(to_cgs(eta_ohm, name="eta_ohm", unit=u.cm**2 / u.s), "eta_ohm",
-                           allow_zero=True))
-        x_e = np.full((), np.nan)
-        tau = np.full((), np.nan)
-    _check_range(eq, kap, e_ad, e_ohm, mu0, x_e,
-                 "surface_density" if surface_density is not None else "column_density",
-                 derived_x_e=cosmic_ray_rate is not None)
-
-    try:
-        shape = np.broadcast_shapes(*(np.shape(a) for a in
-                                      (sigma, temp, p_ext, mu0, b_field, kap, e_ad, e_ohm, x_e)))
-    except ValueError:
-        raise InferError("the array arguments do not broadcast against each other; "
-                         "give scalars or arrays of compatible shapes") from None
-
+        eta_ad = np.zeros(()) if eta_ad is None else np.asarray(eta_ad, dtype=f8)
+        eta_ohm = np.zeros(()) if eta_ohm is None else np.asarray(eta_ohm, dtype=f8)
+        x_e = tau = np.full((), np.nan)
     return Conditions(
-        sigma=sigma, temperature=temp, p_ext=p_ext, mu0=np.asarray(mu0, dtype=float),
-        field=np.asarray(b_field, dtype=float), kappa=np.asarray(kap, dtype=float),
-        eta_ad=np.asarray(e_ad, dtype=float), eta_ohm=np.asarray(e_ohm, dtype=float),
-        x_e=np.asarray(x_e, dtype=float), tau_ni=np.asarray(tau, dtype=float),
-        mu_gas=float(mu_gas), fragment_shape=fragment_shape, shape=shape,
+        sigma=sigma, temperature=temperature, p_ext=np.asarray(p_ext, dtype=f8), mu0=mu0,
+        field=field, kappa=np.asarray(kappa, dtype=f8), eta_ad=eta_ad, eta_ohm=eta_ohm,
+        x_e=x_e, tau_ni=tau, mu_gas=float(mu_gas), fragment_shape=fragment_shape, eq=eq,
     )
 
 
-#: largest dimensionless kernel parameter (P~, kappa t0, eta t0 / L0^2, 1 / mu0^2) accepted;
-#: physical conditions stay below ~1e10, and up to this bound the kernel's arithmetic
-#: neither overflows nor loses the root (tests/test_kernel_extremes.py)
-KERNEL_LIMIT = 1e30
+def kernel_inputs(c: Conditions) -> SheetParams:
+    """The kernel's dimensionless inputs (docs/physics.md, "Dimensionless form").
 
+    With L0 = c_s^2 / (2 pi G Sigma) and t0 = c_s / (2 pi G Sigma):
+    1 / mu0^2, P~ = 2 P_ext / (pi G Sigma^2), kappa~ = kappa t0 and
+    eta~ = (eta_AD + eta_OD) t0 / L0^2.
 
-def _check_range(eq, kap, e_ad, e_ohm, mu0, x_e, density_name: str, *, derived_x_e: bool) -> None:
-    """Refuse finite but extreme conditions that the model cannot evaluate in floating point."""
-    thermal_mass = eq.sigma * (2.0 * eq.ceff2 / (G * eq.sigma)) ** 2
-    scales = (eq.length, eq.time, eq.rho_c, eq.z0, eq.ceff2, thermal_mass)
-    if not all(np.all(np.isfinite(a) & (a > 0.0)) for a in scales):
-        raise InferError(f"{density_name}, temperature, external_pressure, mu_gas: the sheet's "
-                         f"length, time, density or mass scale is out of the floating-point "
-                         f"range; check their values and units")
-    limit = KERNEL_LIMIT
-    if not np.all(eq.p_tilde <= limit):
-        raise InferError(f"external_pressure: more than {limit:.0e} times the sheet's own "
-                         f"gravitational pressure pi G Sigma^2 / 2; check its value and unit")
-    if not np.all(kap * eq.time <= limit):
-        raise InferError(f"kappa (or stellar_mass and radius): the Toomre parameter exceeds "
-                         f"{2 * limit:.0e}; check the values and units")
-    if derived_x_e and not np.all(x_e <= 1.0):
-        raise InferError("cosmic_ray_rate: the derived x_e exceeds 1 (more electrons than "
-                         "neutrals); check its value and unit")
-    eta = (e_ad + e_ohm) * eq.time / eq.length**2
-    if not np.all(np.isfinite(e_ad) & np.isfinite(e_ohm) & (eta <= limit)):
-        raise InferError(f"eta_ad, eta_ohm (or ionization, cosmic_ray_rate): the total "
-                         f"diffusivity exceeds {limit:.0e} in the sheet's units "
-                         f"L0^2 / t0; check the values and units")
-    if not np.all(mu0 >= limit**-0.5):
-        raise InferError(f"field or mass_to_flux: a mass-to-flux ratio below {limit**-0.5:.0e} "
-                         f"of the critical value; check the values and units")
+    Parameters
+    ----------
+    c : Conditions
 
-
-def _check_shapes(**named: Any) -> None:
-    """Refuse array arguments that do not broadcast, before any arithmetic on them."""
-    shapes = {k: np.shape(v) for k, v in named.items() if v is not None and not isinstance(v, str)}
-    try:
-        np.broadcast_shapes(*shapes.values())
-    except ValueError:
-        listed = ", ".join(f"{k} {v}" for k, v in shapes.items() if v != ())
-        raise InferError(f"the array arguments do not broadcast against each other ({listed}); "
-                         "give scalars or arrays of compatible shapes") from None
-
-
-def _ratio(value: Any, name: str) -> np.ndarray:
-    """A dimensionless number (mu0 may be inf for 'no field')."""
-    if isinstance(value, str) and value.strip().lower() in {"inf", "infinity"}:
-        return np.asarray(np.inf)
-    if isinstance(value, (int, float, np.ndarray)) and np.all(np.isinf(np.asarray(value, float))):
-        return np.asarray(value, dtype=float)
-    return dimensionless(value, name=name)
+    Returns
+    -------
+    SheetParams
+        Arrays of the broadcast shape of ``c`` (dimensionless).
+    """
+    eq = c.eq
+    t0 = eq.time
+    return sheet_params(inv_mu2=c.inv_mu2, p_ext=eq.p_tilde, kappa=c.kappa * t0,
+                        eta=c.eta_total * t0 / eq.length**2)

@@ -2,7 +2,8 @@
 
 Two layers:
 
-* :func:`forward` works on plain cgs float arrays (the sampler's hot path);
+* :func:`forward` works on resolved :class:`~infer.physics.conditions.Conditions` of plain
+  cgs float arrays (the sampler's hot path);
 * :func:`predict` is the public interface: astropy Quantity (or strings such as
   ``"80 g/cm2"``) in, a :class:`Prediction` of Quantity arrays out. Arguments
   broadcast against each other like numpy arrays.
@@ -19,10 +20,10 @@ import numpy as np
 from ..constants import AU, M_JUP, MU_GAS, YR, G
 from ..errors import InferError
 from . import dispersion
-from .conditions import FRAGMENT_SHAPES, Conditions, resolve_conditions
-from .sheet import Equilibrium, equilibrium
+from .conditions import FRAGMENT_SHAPES, Conditions, kernel_inputs
+from .resolve import resolve_conditions
 
-__all__ = ["Forward", "forward", "forward_conditions", "Prediction", "predict"]
+__all__ = ["Forward", "forward", "Prediction", "predict", "prediction_from_conditions"]
 
 
 @dataclass(frozen=True)
@@ -47,47 +48,35 @@ class Forward:
     z0: np.ndarray                  # cm
 
 
-def forward(sigma, temperature, *, inv_mu2, eta_total, kappa=0.0, p_ext=0.0,
-            mu_gas: float = MU_GAS, fragment_shape: str = "square",
-            eq: Equilibrium | None = None) -> Forward:
-    """Evaluate the thin-sheet model on cgs arrays (no validation, no Quantity).
+def forward(c: Conditions) -> Forward:
+    """Evaluate the thin-sheet model on resolved conditions (cgs arrays, no validation).
+
+    The sampler's hot path: one call of the dimensionless kernel for every entry of ``c``.
 
     Parameters
     ----------
-    sigma : array_like
-        Surface density, g cm^-2.
-    temperature : array_like
-        Temperature, K.
-    inv_mu2 : array_like
-        1 / mu0^2 (0 for no field).
-    eta_total : array_like
-        eta_AD + eta_OD, cm^2 s^-1 (0 for flux freezing).
-    kappa : array_like
-        Epicyclic frequency, s^-1.
-    p_ext : array_like
-        External pressure, dyn cm^-2.
-    mu_gas : float
-        Mean particle mass in m_H.
-    fragment_shape : {"square", "disk"}
-        Fragment mass Sigma lambda^2, or Sigma pi (lambda/2)^2.
-    eq : Equilibrium, optional
-        The sheet's equilibrium for these inputs, if the caller has it already.
+    c : Conditions
+        From :func:`~infer.physics.conditions.derive_conditions` (or
+        :func:`~infer.physics.resolve.resolve_conditions`), arrays of shape (n,) or
+        broadcastable.
+
+    Returns
+    -------
+    Forward
+        cgs arrays of the broadcast shape.
     """
-    if eq is None:
-        eq = equilibrium(sigma, temperature, p_ext, mu_gas=mu_gas)
-    t0, l0 = eq.time, eq.length
-    p = dispersion.sheet_params(
-        inv_mu2=inv_mu2, p_ext=eq.p_tilde, kappa=np.asarray(kappa, dtype=float) * t0,
-        eta=np.asarray(eta_total, dtype=float) * t0 / l0**2,
-    )
+    p = kernel_inputs(c)
     mode = dispersion.fastest_mode(p)
     with np.errstate(over="ignore", divide="ignore"):   # extreme scales: see _check_results
-        return _dimensional(mode, p, eq, l0, t0, kappa, fragment_shape)
+        return _dimensional(mode, p, c)
 
 
-def _dimensional(mode, p, eq, l0, t0, kappa, fragment_shape) -> Forward:
+def _dimensional(mode: dispersion.FastestMode, p: dispersion.SheetParams,
+                 c: Conditions) -> Forward:
     """The fastest mode in cgs units (the second half of :func:`forward`)."""
-    shape_factor = FRAGMENT_SHAPES[fragment_shape]
+    eq, kappa = c.eq, c.kappa
+    l0, t0 = eq.length, eq.time
+    shape_factor = FRAGMENT_SHAPES[c.fragment_shape]
     sig = np.broadcast_to(eq.sigma, mode.k.shape)
     lam = 2.0 * np.pi * np.broadcast_to(l0, mode.k.shape) / mode.k
     rate = mode.growth_rate / np.broadcast_to(t0, mode.k.shape)
@@ -295,13 +284,6 @@ def predict(
     return prediction_from_conditions(c)
 
 
-def forward_conditions(c: Conditions) -> Forward:
-    """:func:`forward` on resolved :class:`~infer.physics.conditions.Conditions`."""
-    return forward(c.sigma, c.temperature, inv_mu2=c.inv_mu2, eta_total=c.eta_ad + c.eta_ohm,
-                   kappa=c.kappa, p_ext=c.p_ext, mu_gas=c.mu_gas,
-                   fragment_shape=c.fragment_shape)
-
-
 def _check_results(out: Forward) -> None:
     """Refuse results that left the floating-point range (finite inputs at extreme scales).
 
@@ -325,7 +307,7 @@ def _check_results(out: Forward) -> None:
 
 def prediction_from_conditions(c: Conditions) -> Prediction:
     """Evaluate the model on resolved conditions; Quantity results."""
-    out = forward_conditions(c)
+    out = forward(c)
     _check_results(out)
     shape = c.shape
     b_field, mu0, e_ad, e_ohm, x_e, tau = c.field, c.mu0, c.eta_ad, c.eta_ohm, c.x_e, c.tau_ni

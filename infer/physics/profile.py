@@ -3,8 +3,8 @@
     X(r) = X_0 (r / r_0)^-index          (surface density, temperature, mass-to-flux, x_e)
 
 The epicyclic frequency at r is Keplerian from the stellar mass, kappa = Omega =
-sqrt(G M_star / r^3) (docs/physics.md, "Inputs"), computed where the conditions are mapped to
-the kernel (:meth:`infer.inference.model.Model.physical`).
+sqrt(G M_star / r^3) (docs/physics.md, "Inputs"), computed with the other conditions by
+:func:`infer.physics.conditions.keplerian_kappa` (:meth:`infer.inference.model.Model.conditions`).
 """
 
 from __future__ import annotations

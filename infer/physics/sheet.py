@@ -99,9 +99,10 @@ def equilibrium(sigma, temperature, p_ext=0.0, *, mu_gas: float = MU_GAS) -> Equ
     mu_gas : float
         Mean mass per particle in units of m_H.
     """
-    sigma, temperature, p_ext = np.broadcast_arrays(
-        *(np.asarray(x, dtype=float) for x in (sigma, temperature, p_ext))
-    )
+    arrays = [np.asarray(x, dtype=float) for x in (sigma, temperature, p_ext)]
+    if not arrays[0].shape == arrays[1].shape == arrays[2].shape:   # (the sampler: equal)
+        arrays = np.broadcast_arrays(*arrays)
+    sigma, temperature, p_ext = arrays
     cs2 = sound_speed_sq(temperature, mu_gas)
     self_p = np.pi * G * sigma**2
     rho_c = (0.5 * self_p + p_ext) / cs2

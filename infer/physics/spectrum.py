@@ -22,9 +22,9 @@ import numpy as np
 from ..constants import AU, YR
 from ..errors import InferError
 from . import dispersion
-from .conditions import Conditions, resolve_conditions
+from .conditions import Conditions, kernel_inputs
 from .predict import Prediction, prediction_from_conditions
-from .sheet import equilibrium
+from .resolve import resolve_conditions
 
 __all__ = ["Spectrum", "growth_spectrum", "write_spectrum", "spectrum_figure", "FORMATS"]
 
@@ -105,11 +105,8 @@ def growth_spectrum(*, n_points: int = 400, **conditions: Any) -> Spectrum:
     pred = prediction_from_conditions(c)
     lam = _grid(pred, int(n_points))                      # au
 
-    eq = equilibrium(c.sigma, c.temperature, c.p_ext, mu_gas=c.mu_gas)
-    t0, l0 = float(eq.time), float(eq.length)
-    p = dispersion.sheet_params(inv_mu2=c.inv_mu2, p_ext=eq.p_tilde, kappa=c.kappa * t0,
-                                eta=(c.eta_ad + c.eta_ohm) * t0 / l0**2)
-    rate = dispersion.growth_rate(2.0 * np.pi * l0 / (lam * AU), p) / t0 * YR     # 1/yr
+    t0, l0 = float(c.eq.time), float(c.eq.length)
+    rate = dispersion.growth_rate(2.0 * np.pi * l0 / (lam * AU), kernel_inputs(c)) / t0 * YR  # 1/yr
     with np.errstate(divide="ignore"):
         time = np.where(rate > 0.0, 1.0 / np.where(rate > 0.0, rate, 1.0), np.inf)
     return Spectrum(wavelength=lam * u.au, growth_rate=rate / u.yr, growth_time=time * u.yr,
