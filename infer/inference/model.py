@@ -26,7 +26,7 @@ likelihood above, value for value. The terms themselves are in
 from __future__ import annotations
 
 from collections.abc import Mapping
-from dataclasses import dataclass
+from dataclasses import dataclass, field
 
 import astropy.units as u
 import numpy as np
@@ -40,7 +40,7 @@ from ..quantities import DERIVED_NAMES, QUANTITIES
 from .config import ModelOptions, RunConfig
 from .likelihood import count_term, growth_term, observation_terms
 from .measurements import Measurement
-from .parameters import RadialPlan, at_radii, log_prior_sampled, radial_plan, to_sampled, to_values
+from .parameters import LINEAR, RadialPlan, at_radii, radial_plan, to_sampled
 from .priors import PARAMETERS, Prior
 
 __all__ = ["Observations", "Model", "build_model", "DERIVED_UNITS"]
@@ -212,6 +212,10 @@ class Model:
     obs: Observations
     measurements: tuple[Measurement, ...] = ()
     plan: RadialPlan | None = None
+    _hot: _HotPath = field(init=False, repr=False, compare=False)
+
+    def __post_init__(self) -> None:
+        object.__setattr__(self, "_hot", _HotPath.of(self))
 
     @property
     def ndim(self) -> int:
@@ -228,14 +232,7 @@ class Model:
             themselves (:mod:`infer.inference.parameters`).
         """
         theta = np.atleast_2d(np.asarray(theta, dtype=float))
-        n = theta.shape[0]
-        out: dict[str, np.ndarray] = {}
-        for name, prior in self.priors.items():
-            if prior.fixed:
-                out[name] = np.full(n, prior.value)
-        for i, name in enumerate(self.names):
-            out[name] = to_values(name, theta[:, i])
-        return out
+        return self._hot.values(*self._hot.columns(theta))
 
     def sampled(self, values: Mapping[str, np.ndarray]) -> np.ndarray:
         """Inverse of :meth:`values` for the sampled parameters: (n, ndim)."""
@@ -285,10 +282,7 @@ class Model:
     def log_prior(self, theta) -> np.ndarray:
         """Sum of the priors' log-densities in the sampled coordinates (n,)."""
         theta = np.atleast_2d(np.asarray(theta, dtype=float))
-        lp = np.zeros(theta.shape[0])
-        for i, name in enumerate(self.names):
-            lp = lp + log_prior_sampled(self.priors[name], theta[:, i])
-        return np.where(np.isnan(lp), -np.inf, lp)
+        return self._hot.log_prior(*self._hot.columns(theta))
 
     def pointwise_loglike(self, theta) -> np.ndarray:
         """Log-likelihood of every observation (n, n_obs): spacings first, then masses.
@@ -422,12 +416,14 @@ class Model:
     def __call__(self, theta) -> np.ndarray:
         """Log-posterior of each row of ``theta`` (n, ndim) -> (n,); finite or -inf."""
         theta = np.atleast_2d(np.asarray(theta, dtype=float))
-        lp = self.log_prior(theta)
+        lp = self._hot.log_prior(*self._hot.columns(theta))
         ok = np.isfinite(lp)
-        out = np.full(theta.shape[0], -np.inf)
-        if np.any(ok):
-            ll = self.log_likelihood(theta[ok])
-            out[ok] = lp[ok] + ll
+        if ok.all():                 # the usual case: no copies of theta
+            out = lp + self.log_likelihood(theta)
+        else:
+            out = np.full(theta.shape[0], -np.inf)
+            if np.any(ok):
+                out[ok] = lp[ok] + self.log_likelihood(theta[ok])
         out[np.isnan(out)] = -np.inf
         return out
 
@@ -459,6 +455,69 @@ class Model:
         """n draws of theta from the prior (n, ndim)."""
         return np.column_stack([to_sampled(k, self.priors[k].sample(rng, n)) for k in self.names]) \
             if self.names else np.zeros((n, 0))
+
+
+@dataclass(frozen=True, eq=False)
+class _HotPath:
+    """What the log-posterior needs of the priors, computed once when the model is built.
+
+    ``terms`` holds, per sampled column, the density of its sampled coordinate:
+    :meth:`~infer.inference.distributions.Distribution.ln_terms` (given u and e^u) for a
+    positive parameter, the prior's ``logpdf_sampled`` for a linear one (a power-law index).
+    The fixed parameters' constant columns are kept per batch size (read-only arrays).
+    """
+
+    names: tuple[str, ...]
+    linear: tuple[bool, ...]
+    terms: tuple
+    fixed: tuple[tuple[str, float], ...]
+    _rows: dict = field(default_factory=dict)
+
+    @classmethod
+    def of(cls, model: Model) -> _HotPath:
+        linear = tuple(k in LINEAR for k in model.names)
+        terms = tuple(model.priors[k].logpdf_sampled if lin else
+                      model.priors[k].distribution.ln_terms
+                      for k, lin in zip(model.names, linear, strict=True))
+        fixed = tuple((k, p.value) for k, p in model.priors.items() if p.fixed)
+        return cls(model.names, linear, terms, fixed)
+
+    def fixed_columns(self, n: int) -> dict[str, np.ndarray]:
+        """The fixed parameters' values, arrays (n,), shared between calls (read-only)."""
+        cols = self._rows.get(n)
+        if cols is None:
+            cols = {}
+            for k, value in self.fixed:
+                a = np.full(n, value)
+                a.setflags(write=False)
+                cols[k] = a
+            if len(self._rows) < 8:
+                self._rows[n] = cols
+        return cols
+
+    @staticmethod
+    def columns(theta: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
+        """theta (n, ndim) as contiguous rows (ndim, n), and their exponentials."""
+        u_rows = np.ascontiguousarray(theta.T)
+        with np.errstate(over="ignore"):
+            return u_rows, np.exp(u_rows)
+
+    def values(self, u_rows: np.ndarray, e_rows: np.ndarray) -> dict[str, np.ndarray]:
+        """:meth:`Model.values` from :meth:`columns`."""
+        out = dict(self.fixed_columns(u_rows.shape[1]))
+        for name, lin, u_k, e_k in zip(self.names, self.linear, u_rows, e_rows, strict=True):
+            out[name] = u_k if lin else e_k
+        return out
+
+    def log_prior(self, u_rows: np.ndarray, e_rows: np.ndarray) -> np.ndarray:
+        """:meth:`Model.log_prior` from :meth:`columns`: -inf for a row with a non-finite
+        coordinate."""
+        lp = np.zeros(u_rows.shape[1])
+        with np.errstate(over="ignore", invalid="ignore", divide="ignore"):
+            for term, lin, u_k, e_k in zip(self.terms, self.linear, u_rows, e_rows, strict=True):
+                lp = lp + (term(u_k) if lin else term(u_k, e_k))
+        lp = np.where(np.isfinite(u_rows).all(axis=0), lp, -np.inf)
+        return np.where(np.isnan(lp), -np.inf, lp)
 
 
 def build_model(config: RunConfig, obs: Observations) -> Model:
