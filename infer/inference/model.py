@@ -34,7 +34,7 @@ import numpy as np
 from ..constants import AU, M_JUP, M_SUN, YR
 from ..errors import InferError
 from ..physics.conditions import Conditions, derive_conditions, keplerian_kappa
-from ..physics.predict import Forward, forward
+from ..physics.predict import Forward, Observables, forward, observables
 from ..physics.sheet import field_from_mass_to_flux
 from ..quantities import DERIVED_NAMES, QUANTITIES
 from .config import ModelOptions, RunConfig
@@ -322,14 +322,17 @@ class Model:
 
     def _predict(self, theta) -> tuple[dict[str, np.ndarray], dict[str, np.ndarray]]:
         """Parameter values (n,) and the model at each observation (see :meth:`_centres`)."""
+        v = self.values(theta)
         if self.plan is None:
-            v, _, fw = self.evaluate(theta)
-            return v, self._centres(fw)
-        _, _, fw = self.evaluate(theta, radii=self.plan.radii)
-        return self.values(theta), self._centres(fw, self.plan)
+            if self.options.profile == "power-law":     # (as :meth:`evaluate`)
+                v = at_radii(v, None)
+            return v, self._centres(observables(self.conditions(v)))
+        fw = observables(self.conditions(at_radii(v, self.plan.radii)))
+        return v, self._centres(fw, self.plan)
 
     @staticmethod
-    def _centres(fw: Forward, plan: RadialPlan | None = None) -> dict[str, np.ndarray]:
+    def _centres(fw: Forward | Observables,
+                 plan: RadialPlan | None = None) -> dict[str, np.ndarray]:
         """The model's wavelength, fragment mass, growth and stability at each observation.
 
         One column per observation for a radial profile (``plan``), one column for all of them
