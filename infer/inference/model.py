@@ -38,7 +38,7 @@ from ..physics.predict import Forward, Observables, forward, observables
 from ..physics.sheet import field_from_mass_to_flux
 from ..quantities import DERIVED_NAMES, QUANTITIES
 from .config import ModelOptions, RunConfig
-from .likelihood import count_term, growth_term, observation_terms
+from .likelihood import count_term, growth_term, normal_terms
 from .measurements import Measurement
 from .parameters import LINEAR, RadialPlan, at_radii, radial_plan, to_sampled
 from .priors import PARAMETERS, Prior
@@ -46,6 +46,7 @@ from .priors import PARAMETERS, Prior
 __all__ = ["Observations", "Model", "build_model", "DERIVED_UNITS"]
 
 _NONE = -np.inf            # ln of an absent threshold
+_LN10 = np.log(10.0)
 
 #: derived quantity -> unit string used in the summary tables
 DERIVED_UNITS: dict[str, str] = {k: QUANTITIES[k].unit for k in DERIVED_NAMES}
@@ -357,21 +358,28 @@ class Model:
                 "growth_time": np.max(grid(fw.growth_time)[:, mc], axis=1)}
 
     def _pointwise(self, v, c: Mapping[str, np.ndarray]) -> np.ndarray:
-        o = self.obs
-        sel = self.selection_active
-        parts = []
-        if self.options.use_spacings and o.n_spacings:
-            ll = observation_terms(o.ln_spacing, o.var_spacing,
-                                   v["spacing_calibration"][:, None] * c["wavelength"],
-                                   v["spacing_scatter"], o.ln_spacing_min if sel else None)
-            parts.append(np.where(c["unstable_spacing"] & np.isfinite(ll), ll, -np.inf))
-        if self.options.use_masses and o.n_masses:
-            ll = observation_terms(o.ln_mass, o.var_mass,
-                                   v["mass_calibration"][:, None] * c["fragment_mass"],
-                                   v["mass_scatter"], o.ln_mass_min if sel else None)
-            parts.append(np.where(c["unstable_mass"] & np.isfinite(ll), ll, -np.inf))
+        h = self._hot
         n = c["growth_time"].shape[0]
-        return np.concatenate(parts, axis=1) if parts else np.zeros((n, 0))
+        if not h.kinds:
+            return np.zeros((n, 0))
+        centre = [v[cal][:, None] * c[key] for cal, key, _, _ in h.kinds]
+        scatter = [v[sc] for _, _, sc, _ in h.kinds]
+        unstable = [c[key] for _, _, _, key in h.kinds]
+        with np.errstate(invalid="ignore", divide="ignore"):
+            if len(h.kinds) == 1:
+                mu, s = np.log(centre[0]), (scatter[0] * _LN10)[:, None] ** 2
+                grows = unstable[0]
+            else:
+                mu = np.log(np.concatenate(centre, axis=1))
+                s = (np.column_stack(scatter) * _LN10) ** 2
+                grows = unstable[0] if self.plan is None else np.concatenate(unstable, axis=1)
+            if h.centre_col is not None:      # (take: C order, so that sums add as before)
+                mu = np.take(mu, h.centre_col, axis=1)
+            if h.scatter_col is not None:
+                s = np.take(s, h.scatter_col, axis=1)
+            ll = normal_terms(h.ln_obs, mu, s + h.var_obs,
+                              h.ln_min if self.selection_active else None)
+        return np.where(grows & np.isfinite(ll), ll, -np.inf)
 
     def _count(self, v, c: Mapping[str, np.ndarray]) -> np.ndarray:
         """Poisson term of the number of clumps (zeros unless selection applies and ``area`` is given)."""
@@ -474,6 +482,12 @@ class _HotPath:
     linear: tuple[bool, ...]
     terms: tuple
     fixed: tuple[tuple[str, float], ...]
+    kinds: tuple[tuple[str, str, str, str], ...] = ()
+    ln_obs: np.ndarray | None = None
+    var_obs: np.ndarray | None = None
+    ln_min: np.ndarray | None = None
+    centre_col: np.ndarray | None = None
+    scatter_col: np.ndarray | None = None
     _rows: dict = field(default_factory=dict)
 
     @classmethod
@@ -483,7 +497,32 @@ class _HotPath:
                       model.priors[k].distribution.ln_terms
                       for k, lin in zip(model.names, linear, strict=True))
         fixed = tuple((k, p.value) for k, p in model.priors.items() if p.fixed)
-        return cls(model.names, linear, terms, fixed)
+        o, opt = model.obs, model.options
+        # (calibration, centre, scatter, unstable) of each kind used, spacings first
+        kinds, ln_obs, var_obs, ln_min = [], [], [], []
+        if opt.use_spacings and o.n_spacings:
+            kinds.append(("spacing_calibration", "wavelength", "spacing_scatter",
+                          "unstable_spacing"))
+            ln_obs.append(o.ln_spacing)
+            var_obs.append(o.var_spacing)
+            ln_min.append(np.full(o.n_spacings, _NONE) if o.ln_spacing_min is None
+                          else o.ln_spacing_min)
+        if opt.use_masses and o.n_masses:
+            kinds.append(("mass_calibration", "fragment_mass", "mass_scatter", "unstable_mass"))
+            ln_obs.append(o.ln_mass)
+            var_obs.append(o.var_mass)
+            ln_min.append(np.full(o.n_masses, _NONE) if o.ln_mass_min is None
+                          else o.ln_mass_min)
+        if not kinds:
+            return cls(model.names, linear, terms, fixed)
+        kind = np.concatenate([np.full(a.size, j) for j, a in enumerate(ln_obs)])
+        many = len(kinds) > 1
+        return cls(model.names, linear, terms, fixed, tuple(kinds),
+                   ln_obs=np.concatenate(ln_obs)[None, :],
+                   var_obs=np.concatenate(var_obs)[None, :],
+                   ln_min=np.concatenate(ln_min)[None, :],
+                   centre_col=kind if (model.plan is None and many) else None,
+                   scatter_col=kind if many else None)
 
     def fixed_columns(self, n: int) -> dict[str, np.ndarray]:
         """The fixed parameters' values, arrays (n,), shared between calls (read-only)."""
