@@ -251,8 +251,7 @@ class Model:
         if "kappa" in v:
             kappa = v["kappa"]
         else:
-            kappa = keplerian_kappa(v["stellar_mass"], v["radius"], mass_unit=M_SUN,
-                                    length_unit=AU)
+            kappa = self._hot.kappa_of(v)
         mode = self.options.diffusion
         if mode == "ionization":
             diffusion = {"ionization": v["ionization"]}
@@ -489,6 +488,7 @@ class _HotPath:
     centre_col: np.ndarray | None = None
     scatter_col: np.ndarray | None = None
     _rows: dict = field(default_factory=dict)
+    _kappa: dict = field(default_factory=dict)
 
     @classmethod
     def of(cls, model: Model) -> _HotPath:
@@ -543,6 +543,20 @@ class _HotPath:
         u_rows = np.ascontiguousarray(theta.T)
         with np.errstate(over="ignore"):
             return u_rows, np.exp(u_rows)
+
+    def kappa_of(self, v: Mapping[str, np.ndarray]) -> np.ndarray:
+        """Keplerian kappa (s^-1) of values ``v``, computed once per batch size when the
+        stellar mass and the radius are the fixed columns themselves (not moved to radii)."""
+        m_star, r = v["stellar_mass"], v["radius"]
+        kept = self._kappa.get(id(m_star))
+        if kept is not None and kept[0] is m_star and kept[1] is r:
+            return kept[2]
+        kappa = keplerian_kappa(m_star, r, mass_unit=M_SUN, length_unit=AU)
+        cols = self._rows.get(np.shape(m_star)[0] if np.ndim(m_star) == 1 else -1, {})
+        if cols.get("stellar_mass") is m_star and cols.get("radius") is r:
+            kappa.setflags(write=False)
+            self._kappa[id(m_star)] = (m_star, r, kappa)
+        return kappa
 
     def values(self, u_rows: np.ndarray, e_rows: np.ndarray) -> dict[str, np.ndarray]:
         """:meth:`Model.values` from :meth:`columns`."""
