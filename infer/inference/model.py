@@ -320,9 +320,11 @@ class Model:
                          f"detection probability, area {o.area / AU**2:.3g} au2")
         return "; ".join(parts)
 
-    def _predict(self, theta) -> tuple[dict[str, np.ndarray], dict[str, np.ndarray]]:
-        """Parameter values (n,) and the model at each observation (see :meth:`_centres`)."""
-        v = self.values(theta)
+    def _predict(self, theta, v=None) -> tuple[dict[str, np.ndarray], dict[str, np.ndarray]]:
+        """Parameter values (n,) and the model at each observation (see :meth:`_centres`);
+        ``v``: the values of ``theta`` when the caller has them."""
+        if v is None:
+            v = self.values(theta)
         if self.plan is None:
             if self.options.profile == "power-law":     # (as :meth:`evaluate`)
                 v = at_radii(v, None)
@@ -399,9 +401,11 @@ class Model:
         return growth_term(growth_time, t_max=o.growth_time_max, width_dex=o.growth_width_dex,
                            hard=o.growth_constraint == "hard")
 
-    def log_likelihood(self, theta) -> np.ndarray:
+    def log_likelihood(self, theta, *, values=None) -> np.ndarray:
+        """Log-likelihood of each row of ``theta`` (n,); ``values``: :meth:`values` of
+        ``theta`` when the caller has them."""
         theta = np.atleast_2d(np.asarray(theta, dtype=float))
-        v, c = self._predict(theta)
+        v, c = self._predict(theta, values)
         ll = self._pointwise(v, c).sum(axis=1) + self._growth_term(c["growth_time"])
         if self.selection_active:
             ll = ll + self._count(v, c)
@@ -426,10 +430,11 @@ class Model:
     def __call__(self, theta) -> np.ndarray:
         """Log-posterior of each row of ``theta`` (n, ndim) -> (n,); finite or -inf."""
         theta = np.atleast_2d(np.asarray(theta, dtype=float))
-        lp = self._hot.log_prior(*self._hot.columns(theta))
+        cols = self._hot.columns(theta)
+        lp = self._hot.log_prior(*cols)
         ok = np.isfinite(lp)
         if ok.all():                 # the usual case: no copies of theta
-            out = lp + self.log_likelihood(theta)
+            out = lp + self.log_likelihood(theta, values=self._hot.values(*cols))
         else:
             out = np.full(theta.shape[0], -np.inf)
             if np.any(ok):
