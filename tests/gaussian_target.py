@@ -31,12 +31,12 @@ NAMES = ("a", "b", "c")
 
 
 def run(chain_path, *, seed=3, max_steps=3000, resume=False, walkers=16, check_every=50,
-        tau_factor=50.0):
+        tau_factor=50.0, coordinates="original"):
     from infer.inference.config import SamplerOptions
     from infer.inference.sampler import run_sampler
 
     opts = SamplerOptions(walkers=walkers, max_steps=max_steps, seed=seed, check_every=check_every,
-                          tau_factor=tau_factor)
+                          tau_factor=tau_factor, coordinates=coordinates)
     return run_sampler(GaussianLogProb(), names=NAMES, prior_draws=prior_draws, options=opts,
                        chain_path=chain_path, run_hash="gaussian-test", resume=resume, progress=False)
 

@@ -53,6 +53,7 @@ def test_units_are_converted(config_dict):
     (lambda d: d["priors"].pop("radius"), "priors.radius: required"),
     (lambda d: d["sampler"].update(walkers=7), "sampler.walkers"),
     (lambda d: d["sampler"].update(walkers=4), "at least twice"),
+    (lambda d: d["sampler"].update(coordinates="rotated"), "sampler.coordinates: must be one of"),
     (lambda d: d["priors"].update(ionization={"dist": "uniform", "low": -1, "high": 1e-6}),
      "non-negative"),
 ])

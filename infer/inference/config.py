@@ -121,6 +121,10 @@ class SamplerOptions:
         ... and the estimate changed by less than this fraction since the last check.
     check_every : int
         Steps between convergence checks and checkpoints (the first chunk).
+    coordinates : {"original", "whitened"}
+        Where the walkers move: in the ln-parameters themselves, or in
+        coordinates whitened by the Laplace covariance at the MAP point (an
+        affine map; the chain is stored in the ln-parameters either way).
     """
 
     walkers: int = 32
@@ -130,6 +134,7 @@ class SamplerOptions:
     tau_factor: float = 50.0
     tau_rtol: float = 0.01
     check_every: int = 100
+    coordinates: str = "original"
 
 
 @dataclass(frozen=True)
@@ -281,6 +286,8 @@ def parse_config(data: Mapping[str, Any], *, source: str = "<config>") -> RunCon
             kw[k] = _int("sampler.seed", v, 0)
         elif k == "moves":
             kw[k] = _choice("sampler.moves", v, ("de", "stretch"))
+        elif k == "coordinates":
+            kw[k] = _choice("sampler.coordinates", v, ("original", "whitened"))
         else:
             kw[k] = _float(f"sampler.{k}", v)
     s = replace(s, **kw)

@@ -69,6 +69,17 @@ class Distribution(ABC):
 
     def logpdf_ln(self, lnx) -> np.ndarray:
         """Log density of u = ln x up to a constant (Jacobian included), the shape of u."""
+        lnx = np.asarray(lnx, dtype=float)
+        with _quiet():
+            lp = self.ln_terms(lnx, np.exp(lnx))
+        return _finite(lnx, lp)
+
+    def ln_terms(self, lnx: np.ndarray, x: np.ndarray) -> np.ndarray:
+        """:meth:`logpdf_ln` for finite u = ``lnx`` given also x = e^u (float arrays).
+
+        The hot path of the log-posterior: no conversion, no floating-point error state
+        (the caller holds one) and no mask of non-finite u (the caller applies one).
+        """
         raise TypeError(f"{self.name}: a distribution on the real line has no density in ln x")
 
     @abstractmethod
@@ -152,12 +163,8 @@ class Uniform(Distribution):
     def logpdf_unnorm(self, x) -> np.ndarray:
         return np.where((x >= self.low) & (x <= self.high), 0.0, _NEG_INF)
 
-    def logpdf_ln(self, lnx) -> np.ndarray:
-        lnx = np.asarray(lnx, dtype=float)
-        with np.errstate(over="ignore", invalid="ignore"):
-            x = np.exp(lnx)
-            lp = np.where((x >= self.low) & (x <= self.high), lnx, _NEG_INF)
-        return _finite(lnx, lp)
+    def ln_terms(self, lnx: np.ndarray, x: np.ndarray) -> np.ndarray:
+        return np.where((x >= self.low) & (x <= self.high), lnx, _NEG_INF)
 
     def ppf(self, q) -> np.ndarray:
         return self.low + np.asarray(q, dtype=float) * self._width
@@ -194,12 +201,8 @@ class LogUniform(Distribution):
         with np.errstate(divide="ignore", invalid="ignore"):
             return np.where((x >= self.low) & (x <= self.high), -np.log(x), _NEG_INF)
 
-    def logpdf_ln(self, lnx) -> np.ndarray:
-        lnx = np.asarray(lnx, dtype=float)
-        with np.errstate(over="ignore", invalid="ignore"):
-            x = np.exp(lnx)
-            lp = np.where((x >= self.low) & (x <= self.high), 0.0, _NEG_INF)
-        return _finite(lnx, lp)
+    def ln_terms(self, lnx: np.ndarray, x: np.ndarray) -> np.ndarray:
+        return np.where((x >= self.low) & (x <= self.high), 0.0, _NEG_INF)
 
     def ppf(self, q) -> np.ndarray:
         return np.exp(self._ln_low + np.asarray(q, dtype=float) * self._ln_span)
@@ -266,13 +269,9 @@ class TruncNormal(Distribution):
         inside = (x >= max(self.low, 0.0)) & (x <= self.high)
         return np.where(inside, -0.5 * ((x - self.mean) / self.sd) ** 2, _NEG_INF)
 
-    def logpdf_ln(self, lnx) -> np.ndarray:
-        lnx = np.asarray(lnx, dtype=float)
-        with np.errstate(over="ignore", invalid="ignore"):
-            x = np.exp(lnx)
-            inside = (x >= self.low) & (x <= self.high)
-            lp = np.where(inside, -0.5 * ((x - self.mean) / self.sd) ** 2 + lnx, _NEG_INF)
-        return _finite(lnx, lp)
+    def ln_terms(self, lnx: np.ndarray, x: np.ndarray) -> np.ndarray:
+        inside = (x >= self.low) & (x <= self.high)
+        return np.where(inside, -0.5 * ((x - self.mean) / self.sd) ** 2 + lnx, _NEG_INF)
 
     def ppf(self, q) -> np.ndarray:
         return stats.truncnorm.ppf(np.asarray(q, dtype=float), self._alpha, self._beta,
@@ -297,11 +296,8 @@ class PositiveNormal(TruncNormal):
     name: ClassVar[str] = "normal"
     keys: ClassVar[tuple[str, ...]] = ("mean", "sd")
 
-    def logpdf_ln(self, lnx) -> np.ndarray:
-        lnx = np.asarray(lnx, dtype=float)
-        with np.errstate(over="ignore", invalid="ignore"):   # x = e^u > 0: always inside
-            lp = -0.5 * ((np.exp(lnx) - self.mean) / self.sd) ** 2 + lnx
-        return _finite(lnx, lp)
+    def ln_terms(self, lnx: np.ndarray, x: np.ndarray) -> np.ndarray:
+        return -0.5 * ((x - self.mean) / self.sd) ** 2 + lnx   # x = e^u > 0: always inside
 
     @classmethod
     def check(cls, where: str, args: dict[str, float]) -> None:
@@ -338,11 +334,8 @@ class LogNormal(Distribution):
             return np.where(x > 0, -0.5 * ((lnx - self._ln_median) / self._s) ** 2 - lnx,
                             _NEG_INF)
 
-    def logpdf_ln(self, lnx) -> np.ndarray:
-        lnx = np.asarray(lnx, dtype=float)
-        with np.errstate(over="ignore", invalid="ignore"):
-            lp = -0.5 * ((lnx - self._ln_median) / self._s) ** 2
-        return _finite(lnx, lp)
+    def ln_terms(self, lnx: np.ndarray, x: np.ndarray) -> np.ndarray:
+        return -0.5 * ((lnx - self._ln_median) / self._s) ** 2
 
     def ppf(self, q) -> np.ndarray:
         return self.median * 10 ** (self.sigma_dex * special.ndtri(np.asarray(q, dtype=float)))
@@ -369,11 +362,8 @@ class HalfNormal(Distribution):
     def logpdf_unnorm(self, x) -> np.ndarray:
         return np.where(x >= 0, -0.5 * (x / self.scale) ** 2, _NEG_INF)
 
-    def logpdf_ln(self, lnx) -> np.ndarray:
-        lnx = np.asarray(lnx, dtype=float)
-        with np.errstate(over="ignore", invalid="ignore"):
-            lp = -0.5 * (np.exp(lnx) / self.scale) ** 2 + lnx
-        return _finite(lnx, lp)
+    def ln_terms(self, lnx: np.ndarray, x: np.ndarray) -> np.ndarray:
+        return -0.5 * (x / self.scale) ** 2 + lnx
 
     def ppf(self, q) -> np.ndarray:
         return self.scale * special.ndtri(0.5 + 0.5 * np.asarray(q, dtype=float))

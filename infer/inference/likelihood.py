@@ -16,9 +16,9 @@ import numpy as np
 from scipy import special
 
 from ..constants import YR
-from .selection import detection_probability, poisson_loglike, truncation_correction
+from .selection import detection_probability, poisson_loglike
 
-__all__ = ["observation_terms", "growth_term", "count_term"]
+__all__ = ["observation_terms", "normal_terms", "growth_term", "count_term"]
 
 _LN10 = np.log(10.0)
 _LN2PI = np.log(2.0 * np.pi)
@@ -46,9 +46,33 @@ def observation_terms(ln_obs: np.ndarray, var_obs: np.ndarray, centre: np.ndarra
     with np.errstate(invalid="ignore", divide="ignore"):
         mu = np.log(centre)
         var = (scatter_dex * _LN10)[:, None] ** 2 + var_obs[None, :]
-        ll = -0.5 * (ln_obs[None, :] - mu) ** 2 / var - 0.5 * (_LN2PI + np.log(var))
-        if ln_min is not None:
-            ll = ll + truncation_correction(mu, var, ln_min[None, :])
+        return normal_terms(ln_obs[None, :], mu, var,
+                            None if ln_min is None else ln_min[None, :])
+
+
+def normal_terms(ln_obs: np.ndarray, mu: np.ndarray, var: np.ndarray,
+                 ln_min: np.ndarray | None = None) -> np.ndarray:
+    """The core of :func:`observation_terms`: ln-values, means and variances broadcast.
+
+    No floating-point error state of its own (the caller holds one: NaN and inf are
+    expected where nothing grows).
+
+    Parameters
+    ----------
+    ln_obs : ndarray (1, K)
+        ln of the observed values.
+    mu, var : ndarray (n, K) or broadcastable
+        Mean and variance of each ln-value.
+    ln_min : ndarray (1, K), optional
+        ln of the lower truncations (-inf: none, the term is then unchanged).
+
+    Returns
+    -------
+    ndarray (n, K)
+    """
+    ll = -0.5 * (ln_obs - mu) ** 2 / var - 0.5 * (_LN2PI + np.log(var))
+    if ln_min is not None:
+        ll = ll - special.log_ndtr((mu - ln_min) / np.sqrt(var))   # truncation_correction
     return ll
 
 

@@ -26,7 +26,7 @@ likelihood above, value for value. The terms themselves are in
 from __future__ import annotations
 
 from collections.abc import Mapping
-from dataclasses import dataclass
+from dataclasses import dataclass, field
 
 import astropy.units as u
 import numpy as np
@@ -34,18 +34,19 @@ import numpy as np
 from ..constants import AU, M_JUP, M_SUN, YR
 from ..errors import InferError
 from ..physics.conditions import Conditions, derive_conditions, keplerian_kappa
-from ..physics.predict import Forward, forward
+from ..physics.predict import Forward, Observables, forward, observables
 from ..physics.sheet import field_from_mass_to_flux
 from ..quantities import DERIVED_NAMES, QUANTITIES
 from .config import ModelOptions, RunConfig
-from .likelihood import count_term, growth_term, observation_terms
+from .likelihood import count_term, growth_term, normal_terms
 from .measurements import Measurement
-from .parameters import RadialPlan, at_radii, log_prior_sampled, radial_plan, to_sampled, to_values
+from .parameters import LINEAR, RadialPlan, at_radii, radial_plan, to_sampled
 from .priors import PARAMETERS, Prior
 
 __all__ = ["Observations", "Model", "build_model", "DERIVED_UNITS"]
 
 _NONE = -np.inf            # ln of an absent threshold
+_LN10 = np.log(10.0)
 
 #: derived quantity -> unit string used in the summary tables
 DERIVED_UNITS: dict[str, str] = {k: QUANTITIES[k].unit for k in DERIVED_NAMES}
@@ -212,6 +213,10 @@ class Model:
     obs: Observations
     measurements: tuple[Measurement, ...] = ()
     plan: RadialPlan | None = None
+    _hot: _HotPath = field(init=False, repr=False, compare=False)
+
+    def __post_init__(self) -> None:
+        object.__setattr__(self, "_hot", _HotPath.of(self))
 
     @property
     def ndim(self) -> int:
@@ -228,14 +233,7 @@ class Model:
             themselves (:mod:`infer.inference.parameters`).
         """
         theta = np.atleast_2d(np.asarray(theta, dtype=float))
-        n = theta.shape[0]
-        out: dict[str, np.ndarray] = {}
-        for name, prior in self.priors.items():
-            if prior.fixed:
-                out[name] = np.full(n, prior.value)
-        for i, name in enumerate(self.names):
-            out[name] = to_values(name, theta[:, i])
-        return out
+        return self._hot.values(*self._hot.columns(theta))
 
     def sampled(self, values: Mapping[str, np.ndarray]) -> np.ndarray:
         """Inverse of :meth:`values` for the sampled parameters: (n, ndim)."""
@@ -253,8 +251,7 @@ class Model:
         if "kappa" in v:
             kappa = v["kappa"]
         else:
-            kappa = keplerian_kappa(v["stellar_mass"], v["radius"], mass_unit=M_SUN,
-                                    length_unit=AU)
+            kappa = self._hot.kappa_of(v)
         mode = self.options.diffusion
         if mode == "ionization":
             diffusion = {"ionization": v["ionization"]}
@@ -285,10 +282,7 @@ class Model:
     def log_prior(self, theta) -> np.ndarray:
         """Sum of the priors' log-densities in the sampled coordinates (n,)."""
         theta = np.atleast_2d(np.asarray(theta, dtype=float))
-        lp = np.zeros(theta.shape[0])
-        for i, name in enumerate(self.names):
-            lp = lp + log_prior_sampled(self.priors[name], theta[:, i])
-        return np.where(np.isnan(lp), -np.inf, lp)
+        return self._hot.log_prior(*self._hot.columns(theta))
 
     def pointwise_loglike(self, theta) -> np.ndarray:
         """Log-likelihood of every observation (n, n_obs): spacings first, then masses.
@@ -326,16 +320,21 @@ class Model:
                          f"detection probability, area {o.area / AU**2:.3g} au2")
         return "; ".join(parts)
 
-    def _predict(self, theta) -> tuple[dict[str, np.ndarray], dict[str, np.ndarray]]:
-        """Parameter values (n,) and the model at each observation (see :meth:`_centres`)."""
+    def _predict(self, theta, v=None) -> tuple[dict[str, np.ndarray], dict[str, np.ndarray]]:
+        """Parameter values (n,) and the model at each observation (see :meth:`_centres`);
+        ``v``: the values of ``theta`` when the caller has them."""
+        if v is None:
+            v = self.values(theta)
         if self.plan is None:
-            v, _, fw = self.evaluate(theta)
-            return v, self._centres(fw)
-        _, _, fw = self.evaluate(theta, radii=self.plan.radii)
-        return self.values(theta), self._centres(fw, self.plan)
+            if self.options.profile == "power-law":     # (as :meth:`evaluate`)
+                v = at_radii(v, None)
+            return v, self._centres(observables(self.conditions(v)))
+        fw = observables(self.conditions(at_radii(v, self.plan.radii)))
+        return v, self._centres(fw, self.plan)
 
     @staticmethod
-    def _centres(fw: Forward, plan: RadialPlan | None = None) -> dict[str, np.ndarray]:
+    def _centres(fw: Forward | Observables,
+                 plan: RadialPlan | None = None) -> dict[str, np.ndarray]:
         """The model's wavelength, fragment mass, growth and stability at each observation.
 
         One column per observation for a radial profile (``plan``), one column for all of them
@@ -360,21 +359,28 @@ class Model:
                 "growth_time": np.max(grid(fw.growth_time)[:, mc], axis=1)}
 
     def _pointwise(self, v, c: Mapping[str, np.ndarray]) -> np.ndarray:
-        o = self.obs
-        sel = self.selection_active
-        parts = []
-        if self.options.use_spacings and o.n_spacings:
-            ll = observation_terms(o.ln_spacing, o.var_spacing,
-                                   v["spacing_calibration"][:, None] * c["wavelength"],
-                                   v["spacing_scatter"], o.ln_spacing_min if sel else None)
-            parts.append(np.where(c["unstable_spacing"] & np.isfinite(ll), ll, -np.inf))
-        if self.options.use_masses and o.n_masses:
-            ll = observation_terms(o.ln_mass, o.var_mass,
-                                   v["mass_calibration"][:, None] * c["fragment_mass"],
-                                   v["mass_scatter"], o.ln_mass_min if sel else None)
-            parts.append(np.where(c["unstable_mass"] & np.isfinite(ll), ll, -np.inf))
+        h = self._hot
         n = c["growth_time"].shape[0]
-        return np.concatenate(parts, axis=1) if parts else np.zeros((n, 0))
+        if not h.kinds:
+            return np.zeros((n, 0))
+        centre = [v[cal][:, None] * c[key] for cal, key, _, _ in h.kinds]
+        scatter = [v[sc] for _, _, sc, _ in h.kinds]
+        unstable = [c[key] for _, _, _, key in h.kinds]
+        with np.errstate(invalid="ignore", divide="ignore"):
+            if len(h.kinds) == 1:
+                mu, s = np.log(centre[0]), (scatter[0] * _LN10)[:, None] ** 2
+                grows = unstable[0]
+            else:
+                mu = np.log(np.concatenate(centre, axis=1))
+                s = (np.column_stack(scatter) * _LN10) ** 2
+                grows = unstable[0] if self.plan is None else np.concatenate(unstable, axis=1)
+            if h.centre_col is not None:      # (take: C order, so that sums add as before)
+                mu = np.take(mu, h.centre_col, axis=1)
+            if h.scatter_col is not None:
+                s = np.take(s, h.scatter_col, axis=1)
+            ll = normal_terms(h.ln_obs, mu, s + h.var_obs,
+                              h.ln_min if self.selection_active else None)
+        return np.where(grows & np.isfinite(ll), ll, -np.inf)
 
     def _count(self, v, c: Mapping[str, np.ndarray]) -> np.ndarray:
         """Poisson term of the number of clumps (zeros unless selection applies and ``area`` is given)."""
@@ -395,9 +401,11 @@ class Model:
         return growth_term(growth_time, t_max=o.growth_time_max, width_dex=o.growth_width_dex,
                            hard=o.growth_constraint == "hard")
 
-    def log_likelihood(self, theta) -> np.ndarray:
+    def log_likelihood(self, theta, *, values=None) -> np.ndarray:
+        """Log-likelihood of each row of ``theta`` (n,); ``values``: :meth:`values` of
+        ``theta`` when the caller has them."""
         theta = np.atleast_2d(np.asarray(theta, dtype=float))
-        v, c = self._predict(theta)
+        v, c = self._predict(theta, values)
         ll = self._pointwise(v, c).sum(axis=1) + self._growth_term(c["growth_time"])
         if self.selection_active:
             ll = ll + self._count(v, c)
@@ -422,12 +430,15 @@ class Model:
     def __call__(self, theta) -> np.ndarray:
         """Log-posterior of each row of ``theta`` (n, ndim) -> (n,); finite or -inf."""
         theta = np.atleast_2d(np.asarray(theta, dtype=float))
-        lp = self.log_prior(theta)
+        cols = self._hot.columns(theta)
+        lp = self._hot.log_prior(*cols)
         ok = np.isfinite(lp)
-        out = np.full(theta.shape[0], -np.inf)
-        if np.any(ok):
-            ll = self.log_likelihood(theta[ok])
-            out[ok] = lp[ok] + ll
+        if ok.all():                 # the usual case: no copies of theta
+            out = lp + self.log_likelihood(theta, values=self._hot.values(*cols))
+        else:
+            out = np.full(theta.shape[0], -np.inf)
+            if np.any(ok):
+                out[ok] = lp[ok] + self.log_likelihood(theta[ok])
         out[np.isnan(out)] = -np.inf
         return out
 
@@ -459,6 +470,115 @@ class Model:
         """n draws of theta from the prior (n, ndim)."""
         return np.column_stack([to_sampled(k, self.priors[k].sample(rng, n)) for k in self.names]) \
             if self.names else np.zeros((n, 0))
+
+
+@dataclass(frozen=True, eq=False)
+class _HotPath:
+    """What the log-posterior needs of the priors, computed once when the model is built.
+
+    ``terms`` holds, per sampled column, the density of its sampled coordinate:
+    :meth:`~infer.inference.distributions.Distribution.ln_terms` (given u and e^u) for a
+    positive parameter, the prior's ``logpdf_sampled`` for a linear one (a power-law index).
+    The fixed parameters' constant columns are kept per batch size (read-only arrays).
+    """
+
+    names: tuple[str, ...]
+    linear: tuple[bool, ...]
+    terms: tuple
+    fixed: tuple[tuple[str, float], ...]
+    kinds: tuple[tuple[str, str, str, str], ...] = ()
+    ln_obs: np.ndarray | None = None
+    var_obs: np.ndarray | None = None
+    ln_min: np.ndarray | None = None
+    centre_col: np.ndarray | None = None
+    scatter_col: np.ndarray | None = None
+    _rows: dict = field(default_factory=dict)
+    _kappa: dict = field(default_factory=dict)
+
+    @classmethod
+    def of(cls, model: Model) -> _HotPath:
+        linear = tuple(k in LINEAR for k in model.names)
+        terms = tuple(model.priors[k].logpdf_sampled if lin else
+                      model.priors[k].distribution.ln_terms
+                      for k, lin in zip(model.names, linear, strict=True))
+        fixed = tuple((k, p.value) for k, p in model.priors.items() if p.fixed)
+        o, opt = model.obs, model.options
+        # (calibration, centre, scatter, unstable) of each kind used, spacings first
+        kinds, ln_obs, var_obs, ln_min = [], [], [], []
+        if opt.use_spacings and o.n_spacings:
+            kinds.append(("spacing_calibration", "wavelength", "spacing_scatter",
+                          "unstable_spacing"))
+            ln_obs.append(o.ln_spacing)
+            var_obs.append(o.var_spacing)
+            ln_min.append(np.full(o.n_spacings, _NONE) if o.ln_spacing_min is None
+                          else o.ln_spacing_min)
+        if opt.use_masses and o.n_masses:
+            kinds.append(("mass_calibration", "fragment_mass", "mass_scatter", "unstable_mass"))
+            ln_obs.append(o.ln_mass)
+            var_obs.append(o.var_mass)
+            ln_min.append(np.full(o.n_masses, _NONE) if o.ln_mass_min is None
+                          else o.ln_mass_min)
+        if not kinds:
+            return cls(model.names, linear, terms, fixed)
+        kind = np.concatenate([np.full(a.size, j) for j, a in enumerate(ln_obs)])
+        many = len(kinds) > 1
+        return cls(model.names, linear, terms, fixed, tuple(kinds),
+                   ln_obs=np.concatenate(ln_obs)[None, :],
+                   var_obs=np.concatenate(var_obs)[None, :],
+                   ln_min=np.concatenate(ln_min)[None, :],
+                   centre_col=kind if (model.plan is None and many) else None,
+                   scatter_col=kind if many else None)
+
+    def fixed_columns(self, n: int) -> dict[str, np.ndarray]:
+        """The fixed parameters' values, arrays (n,), shared between calls (read-only)."""
+        cols = self._rows.get(n)
+        if cols is None:
+            cols = {}
+            for k, value in self.fixed:
+                a = np.full(n, value)
+                a.setflags(write=False)
+                cols[k] = a
+            if len(self._rows) < 8:
+                self._rows[n] = cols
+        return cols
+
+    @staticmethod
+    def columns(theta: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
+        """theta (n, ndim) as contiguous rows (ndim, n), and their exponentials."""
+        u_rows = np.ascontiguousarray(theta.T)
+        with np.errstate(over="ignore"):
+            return u_rows, np.exp(u_rows)
+
+    def kappa_of(self, v: Mapping[str, np.ndarray]) -> np.ndarray:
+        """Keplerian kappa (s^-1) of values ``v``, computed once per batch size when the
+        stellar mass and the radius are the fixed columns themselves (not moved to radii)."""
+        m_star, r = v["stellar_mass"], v["radius"]
+        kept = self._kappa.get(id(m_star))
+        if kept is not None and kept[0] is m_star and kept[1] is r:
+            return kept[2]
+        kappa = keplerian_kappa(m_star, r, mass_unit=M_SUN, length_unit=AU)
+        cols = self._rows.get(np.shape(m_star)[0] if np.ndim(m_star) == 1 else -1, {})
+        if cols.get("stellar_mass") is m_star and cols.get("radius") is r:
+            kappa.setflags(write=False)
+            self._kappa[id(m_star)] = (m_star, r, kappa)
+        return kappa
+
+    def values(self, u_rows: np.ndarray, e_rows: np.ndarray) -> dict[str, np.ndarray]:
+        """:meth:`Model.values` from :meth:`columns`."""
+        out = dict(self.fixed_columns(u_rows.shape[1]))
+        for name, lin, u_k, e_k in zip(self.names, self.linear, u_rows, e_rows, strict=True):
+            out[name] = u_k if lin else e_k
+        return out
+
+    def log_prior(self, u_rows: np.ndarray, e_rows: np.ndarray) -> np.ndarray:
+        """:meth:`Model.log_prior` from :meth:`columns`: -inf for a row with a non-finite
+        coordinate."""
+        lp = np.zeros(u_rows.shape[1])
+        with np.errstate(over="ignore", invalid="ignore", divide="ignore"):
+            for term, lin, u_k, e_k in zip(self.terms, self.linear, u_rows, e_rows, strict=True):
+                lp = lp + (term(u_k) if lin else term(u_k, e_k))
+        lp = np.where(np.isfinite(u_rows).all(axis=0), lp, -np.inf)
+        return np.where(np.isnan(lp), -np.inf, lp)
 
 
 def build_model(config: RunConfig, obs: Observations) -> Model:

@@ -12,7 +12,7 @@ Two layers:
 from __future__ import annotations
 
 from dataclasses import dataclass, fields
-from typing import Any
+from typing import Any, NamedTuple
 
 import astropy.units as u
 import numpy as np
@@ -23,7 +23,8 @@ from . import dispersion
 from .conditions import FRAGMENT_SHAPES, Conditions, kernel_inputs
 from .resolve import resolve_conditions
 
-__all__ = ["Forward", "forward", "Prediction", "predict", "prediction_from_conditions"]
+__all__ = ["Forward", "forward", "Observables", "observables", "Prediction", "predict",
+           "prediction_from_conditions"]
 
 
 @dataclass(frozen=True)
@@ -71,15 +72,62 @@ def forward(c: Conditions) -> Forward:
         return _dimensional(mode, p, c)
 
 
+class Observables(NamedTuple):
+    """What the likelihood compares with (cgs arrays of the broadcast input shape).
+
+    The part of :class:`Forward` the sampler needs; NaN where nothing grows.
+    """
+
+    unstable: np.ndarray
+    wavelength: np.ndarray          # cm
+    growth_time: np.ndarray         # s
+    fragment_mass: np.ndarray       # g
+
+
+def observables(c: Conditions) -> Observables:
+    """The fastest mode's wavelength, growth time and fragment mass (the sampler's hot path).
+
+    The same numbers as those fields of :func:`forward`, without the rest of it.
+
+    Parameters
+    ----------
+    c : Conditions
+        Arrays of shape (n,) or broadcastable.
+
+    Returns
+    -------
+    Observables
+        cgs arrays of the broadcast shape.
+    """
+    mode = dispersion.fastest_mode(kernel_inputs(c))
+    with np.errstate(over="ignore", divide="ignore"):
+        return _observables(mode, c)[0]
+
+
+def _shaped(a, shape: tuple[int, ...]):
+    """``a`` itself when it has ``shape``, else a broadcast view (the sampler's case: equal)."""
+    return a if np.shape(a) == shape else np.broadcast_to(a, shape)
+
+
+def _observables(mode: dispersion.FastestMode,
+                 c: Conditions) -> tuple[Observables, np.ndarray, np.ndarray]:
+    """The observables in cgs, the growth rate (s^-1) and Sigma of the mode's shape."""
+    eq, shape = c.eq, mode.k.shape
+    sig = _shaped(eq.sigma, shape)
+    lam = 2.0 * np.pi * _shaped(eq.length, shape) / mode.k
+    rate = mode.growth_rate / _shaped(eq.time, shape)
+    mass = FRAGMENT_SHAPES[c.fragment_shape] * sig * lam**2
+    return Observables(mode.unstable, lam, 1.0 / rate, mass), rate, sig
+
+
 def _dimensional(mode: dispersion.FastestMode, p: dispersion.SheetParams,
                  c: Conditions) -> Forward:
     """The fastest mode in cgs units (the second half of :func:`forward`)."""
     eq, kappa = c.eq, c.kappa
-    l0, t0 = eq.length, eq.time
+    l0 = eq.length
     shape_factor = FRAGMENT_SHAPES[c.fragment_shape]
-    sig = np.broadcast_to(eq.sigma, mode.k.shape)
-    lam = 2.0 * np.pi * np.broadcast_to(l0, mode.k.shape) / mode.k
-    rate = mode.growth_rate / np.broadcast_to(t0, mode.k.shape)
+    obs, rate, sig = _observables(mode, c)
+    lam = obs.wavelength
     lam_t = 2.0 * np.broadcast_to(eq.ceff2, mode.k.shape) / (G * sig)
     cs = np.sqrt(eq.cs2)
     q = cs * np.broadcast_to(np.asarray(kappa, dtype=float), mode.k.shape) / (np.pi * G * sig)
@@ -92,8 +140,8 @@ def _dimensional(mode: dispersion.FastestMode, p: dispersion.SheetParams,
         unstable=mode.unstable,
         wavelength=lam,
         growth_rate=rate,
-        growth_time=1.0 / rate,
-        fragment_mass=shape_factor * sig * lam**2,
+        growth_time=obs.growth_time,
+        fragment_mass=obs.fragment_mass,
         thermal_wavelength=lam_t,
         thermal_mass=shape_factor * sig * lam_t**2,
         toomre_q=q,
