@@ -8,10 +8,9 @@ import tomllib
 from pathlib import Path
 from typing import Any
 
-import astropy.units as u
-
 from ..catalog.regions import SPACING_METHODS, check_catalog
 from ..errors import ConfigError
+from ..quantities import QUANTITIES, QuantityInfo
 
 __all__ = ["add_arguments", "run", "format_text"]
 
@@ -80,19 +79,33 @@ def _g(v: float | None, digits: int = 3) -> str:
     return "n/a" if v is None else f"{v:.{digits}g}"
 
 
+_LENGTH, _MASS, _AREA = QUANTITIES["spacing"], QUANTITIES["clump_mass"], QUANTITIES["area"]
+_STAR = QUANTITIES["stellar_mass"]
+
+
+def _v(d: dict[str, Any], q: QuantityInfo, stem: str, *, unit: bool = True) -> str:
+    """The entry ``stem`` (keyed in the unit of ``q``), with that unit unless ``unit=False``."""
+    text = _g(d[q.key(stem)])
+    return f"{text} {q.unit_text}" if unit else text
+
+
 def _block(d: dict[str, Any], indent: str = "  ") -> list[str]:
     method = "minimum spanning tree" if d["spacing_method"] == "mst" else "nearest neighbour"
+    in_star = (1.0 * _MASS.astropy_unit).to_value(_STAR.astropy_unit)
     lines = [
         f"{indent}clumps                 {d['n_clumps']}",
         f"{indent}spacings ({method}, {d['spacing_count']})",
-        f"{indent}  median               {_g(d['spacing_median_au'])} au"
-        f"   (16-84%: {_g(d['spacing_p16_au'])} - {_g(d['spacing_p84_au'])} au)",
-        f"{indent}  min, max             {_g(d['spacing_min_au'])}, {_g(d['spacing_max_au'])} au",
+        f"{indent}  median               {_v(d, _LENGTH, 'spacing_median')}"
+        f"   (16-84%: {_v(d, _LENGTH, 'spacing_p16', unit=False)} - "
+        f"{_v(d, _LENGTH, 'spacing_p84')})",
+        f"{indent}  min, max             {_v(d, _LENGTH, 'spacing_min', unit=False)}, "
+        f"{_v(d, _LENGTH, 'spacing_max')}",
         f"{indent}masses{' (from fluxes)' if d.get('mass_from_flux') else ''}",
-        f"{indent}  median               {_g(d['mass_median_mjup'])} M_Jup"
-        f"   (16-84%: {_g(d['mass_p16_mjup'])} - {_g(d['mass_p84_mjup'])} M_Jup; "
-        f"{_g(d['mass_median_mjup'] * (u.M_jup.to(u.solMass)))} M_sun)",
-        f"{indent}  min, max             {_g(d['mass_min_mjup'])}, {_g(d['mass_max_mjup'])} M_Jup",
+        f"{indent}  median               {_v(d, _MASS, 'mass_median')}"
+        f"   (16-84%: {_v(d, _MASS, 'mass_p16', unit=False)} - {_v(d, _MASS, 'mass_p84')}; "
+        f"{_g(d[_MASS.key('mass_median')] * in_star)} {_STAR.unit_text})",
+        f"{indent}  min, max             {_v(d, _MASS, 'mass_min', unit=False)}, "
+        f"{_v(d, _MASS, 'mass_max')}",
     ]
     lines += _selection_lines(d, indent)
     meta = d.get("metadata", {})
@@ -109,16 +122,16 @@ def _selection_lines(d: dict[str, Any], indent: str) -> list[str]:
     lines = []
     beam = d.get("beam")
     if beam:
-        ext = d["beam_extent_au"]
+        ext = d[_LENGTH.key("beam_extent")]
         lines.append(f"{indent}beam                   {_g(beam['major_arcsec'])} x "
                      f"{_g(beam['minor_arcsec'])} arcsec at PA {_g(beam['pa_deg'])} deg "
-                     f"({_g(min(ext))}-{_g(max(ext))} au along the spacings); "
+                     f"({_g(min(ext))}-{_g(max(ext))} {_LENGTH.unit_text} along the spacings); "
                      f"{d['spacings_below_beam']} spacing(s) below it")
-    if d.get("mass_limit_mjup") is not None:
-        lines.append(f"{indent}detection limit        {_g(d['mass_limit_mjup'])} M_Jup; "
+    if d.get(_MASS.key("mass_limit")) is not None:
+        lines.append(f"{indent}detection limit        {_v(d, _MASS, 'mass_limit')}; "
                      f"{d['masses_below_limit']} mass(es) at or below it")
-    if d.get("area_au2") is not None:
-        lines.append(f"{indent}searched area          {_g(d['area_au2'])} au2 (disk plane)")
+    if d.get(_AREA.key()) is not None:
+        lines.append(f"{indent}searched area          {_v(d, _AREA, 'area')} (disk plane)")
     return lines
 
 
@@ -131,8 +144,9 @@ def format_text(d: dict[str, Any]) -> str:
             lines.append(f"region {r['name']}")
             lines += _block(r)
         lines.append("all regions")
-        lines.append(f"  spacings median {_g(d['spacing_median_au'])} au over {d['spacing_count']}; "
-                     f"masses median {_g(d['mass_median_mjup'])} M_Jup over {d['n_clumps']}")
+        lines.append(f"  spacings median {_v(d, _LENGTH, 'spacing_median')} over "
+                     f"{d['spacing_count']}; masses median {_v(d, _MASS, 'mass_median')} over "
+                     f"{d['n_clumps']}")
     else:
         lines += _block(d)
     lines.append("warnings" + ("" if d["warnings"] else ": none"))

@@ -12,6 +12,7 @@ from pathlib import Path
 
 from ..errors import InferError
 from ..physics.spectrum import FORMATS, growth_spectrum, write_spectrum
+from ..quantities import QUANTITIES
 from .conditions import add_condition_arguments, conditions_from_args, option_message
 
 __all__ = ["add_arguments", "run"]
@@ -44,7 +45,13 @@ def run(args: argparse.Namespace) -> int:
                          f"to write; {out} was not written (see infer predict for the details)")
     write_spectrum(spec, out, name="--out")
     pred = spec.prediction
+    lam, time = QUANTITIES["wavelength"], QUANTITIES["growth_time"]
+
+    def v(q, x) -> str:
+        return f"{x.to_value(q.astropy_unit):.3g}"
+
     print(f"wrote {out}: {len(spec.wavelength)} wavelengths from "
-          f"{spec.wavelength[0].value:.3g} to {spec.wavelength[-1].value:.3g} au; fastest "
-          f"{pred.wavelength.value:.3g} au (e-folding {pred.growth_time.value:.3g} yr)")
+          f"{v(lam, spec.wavelength[0])} to {v(lam, spec.wavelength[-1])} {lam.unit_text}; fastest "
+          f"{v(lam, pred.wavelength)} {lam.unit_text} (e-folding {v(time, pred.growth_time)} "
+          f"{time.unit_text})")
     return 0

@@ -36,6 +36,7 @@ from dataclasses import dataclass, field
 import numpy as np
 
 from ..errors import InferError
+from ..quantities import QUANTITIES
 from .measurements import Measurement, measurement_loglike
 
 __all__ = ["TargetForecast", "ForecastResult", "forecast", "parse_precision", "default_targets",
@@ -49,31 +50,18 @@ MEASURABLE: dict[str, str] = {
     "surface_density": "surface_density",
 }
 
-#: what the targets are called in reports, with their units
-TARGET_LABELS: dict[str, str] = {
-    "mass_to_flux": "mass-to-flux ratio",
-    "ionization": "ionization fraction",
-    "eta_ad": "eta_AD [cm2/s]",
-    "eta_ohm": "eta_Ohm [cm2/s]",
-    "eta_total": "eta_AD + eta_Ohm [cm2/s]",
-    "field": "field [mG]",
-    "wavelength": "fastest-growing wavelength [au]",
-    "temperature": "temperature [K]",
-    "surface_density": "surface density [g/cm2]",
-}
 
-#: short names for sentences
-SHORT_NAMES: dict[str, str] = {
-    "mass_to_flux": "mass-to-flux ratio",
-    "ionization": "ionization fraction",
-    "eta_ad": "ambipolar diffusivity",
-    "eta_ohm": "Ohmic diffusivity",
-    "eta_total": "total diffusivity",
-    "field": "field strength",
-    "wavelength": "fastest-growing wavelength",
-    "temperature": "temperature",
-    "surface_density": "surface density",
-}
+def _label(name: str) -> str:
+    """A target's name with its unit for tables, from the registry ("field strength [mG]")."""
+    q = QUANTITIES.get(name)
+    return q.text_label if q is not None else name
+
+
+def _short(name: str) -> str:
+    """A target's plain-words name for sentences, from the registry ("field strength")."""
+    q = QUANTITIES.get(name)
+    return q.title if q is not None else name
+
 
 _Q = (0.16, 0.84)
 _NO_GAIN = 0.9          # a width ratio above this counts as "essentially unchanged"
@@ -153,7 +141,7 @@ class ForecastResult:
                  f"1 means no gain.", "",
                  "| quantity | width ratio (median) | 16-84% over draws |", "|---|---|---|"]
         for t in self.targets.values():
-            lines.append(f"| {TARGET_LABELS.get(t.name, t.name)} | {t.ratio_median:.2f} | "
+            lines.append(f"| {_label(t.name)} | {t.ratio_median:.2f} | "
                          f"{t.ratio_p16:.2f} - {t.ratio_p84:.2f} |")
         lines += ["", f"Effective sample size of the weights: median {self.ess_median:.0f} "
                       f"(16-84%: {np.quantile(self.ess, 0.16):.0f} - {np.quantile(self.ess, 0.84):.0f})"
@@ -163,9 +151,9 @@ class ForecastResult:
 
     def to_text(self) -> str:
         """Plain-text rendering for the terminal."""
-        out = [self.title(), f"  {'quantity':<28} {'width ratio':>11}  {'16-84% over draws':>18}"]
+        out = [self.title(), f"  {'quantity':<32} {'width ratio':>11}  {'16-84% over draws':>18}"]
         for t in self.targets.values():
-            out.append(f"  {TARGET_LABELS.get(t.name, t.name):<28} {t.ratio_median:>11.2f}  "
+            out.append(f"  {_label(t.name):<32} {t.ratio_median:>11.2f}  "
                        f"{t.ratio_p16:>8.2f} - {t.ratio_p84:<8.2f}")
         out.append(f"  effective samples: median {self.ess_median:.0f} of {self.n_samples}")
         out += [f"  warning: {w}" for w in self.warnings]
@@ -181,15 +169,15 @@ class ForecastResult:
         what = {"surface_density": "column-density"}.get(self.measured, self.measured)
         head = f"A {what} measurement with {self.precision:.0%} precision"
         if gain:
-            parts = [f"the {SHORT_NAMES.get(n, n)} to about {self.targets[n].ratio_median:.0%}"
+            parts = [f"the {_short(n)} to about {self.targets[n].ratio_median:.0%}"
                      for n in gain]
             whose = "its current width" if len(gain) == 1 else "their current widths"
             s = f"{head} would be expected to narrow the 68% interval of {_join(parts)} of {whose}"
             rest = [n for n in names if n not in gain]
-            s += (f", and leave the {_join([SHORT_NAMES.get(n, n) for n in rest])} essentially "
+            s += (f", and leave the {_join([_short(n) for n in rest])} essentially "
                   f"unchanged." if rest else ".")
         else:
-            s = (f"{head} would leave the {_join([SHORT_NAMES.get(n, n) for n in names])} "
+            s = (f"{head} would leave the {_join([_short(n) for n in names])} "
                  f"essentially unchanged (all 68% intervals stay above {_NO_GAIN:.0%} of their "
                  f"current width).")
         if self.degenerate:
