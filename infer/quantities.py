@@ -14,6 +14,11 @@ import astropy.units as u
 __all__ = ["QuantityInfo", "QUANTITIES", "PARAMETER_NAMES", "DERIVED_NAMES", "info", "unit_of",
            "plot_label", "summary_order"]
 
+#: units written differently in plain text (display only; astropy reads the unit strings)
+_PLAIN_UNITS = {"jupiterMass": "M_Jup", "solMass": "M_sun"}
+#: units spelled differently in JSON key suffixes ("fragment_mass_mjup")
+_KEY_UNITS = {"jupiterMass": "mjup"}
+
 
 @dataclass(frozen=True)
 class QuantityInfo:
@@ -39,6 +44,9 @@ class QuantityInfo:
         Zero is a valid value (fixed priors, e.g. no rotation or no external pressure).
     derived : bool
         Computed from the parameters rather than sampled.
+    auxiliary : bool
+        Neither a parameter nor a summary row: another way to state a condition, or a
+        quantity of the clump catalog.
     """
 
     name: str
@@ -50,11 +58,33 @@ class QuantityInfo:
     log: bool = False
     allow_zero: bool = False
     derived: bool = False
+    auxiliary: bool = False
 
     @property
     def label(self) -> str:
         """Plot label with its unit, e.g. ``$\\Sigma$ [g cm$^{-2}$]``."""
         return f"{self.symbol} [{self.unit_label}]" if self.unit_label else self.symbol
+
+    @property
+    def unit_text(self) -> str:
+        """The unit in plain text, e.g. "cm2/s", "M_Jup" ("" when dimensionless)."""
+        return _PLAIN_UNITS.get(self.unit, self.unit.replace(" / ", "/"))
+
+    @property
+    def text_label(self) -> str:
+        """Plain-text name with its unit, e.g. "field strength [mG]"."""
+        return f"{self.title} [{self.unit_text}]" if self.unit_text else self.title
+
+    def key(self, stem: str | None = None) -> str:
+        """JSON key of the value in this unit: ``stem`` (default the name) + unit suffix.
+
+        E.g. "wavelength_au", "fragment_mass_mjup", "eta_ad_cm2_s"; no suffix when
+        dimensionless.
+        """
+        stem = self.name if stem is None else stem
+        if self.unit in ("", "dex"):
+            return stem
+        return f"{stem}_{_KEY_UNITS.get(self.unit, self.unit.replace(' / ', '_'))}"
 
     @property
     def astropy_unit(self) -> u.UnitBase:
@@ -122,10 +152,32 @@ QUANTITIES: dict[str, QuantityInfo] = {q.name: q for q in (
     _q("toomre_q", "", r"$Q$", r"$Q$", "", "Toomre Q", derived=True),
     _q("thermal_wavelength", "au", r"$\lambda_\mathrm{T}$", r"$\lambda_\mathrm{T}$", "au",
        "thermal fastest-growing wavelength", derived=True),
+    # further outputs of the forward model (infer predict), not summary rows
+    _q("thermal_mass", "jupiterMass", r"$M_\mathrm{T}$", r"$M_\mathrm{T}$", r"$M_\mathrm{J}$",
+       "thermal fragment mass", derived=True),
+    _q("toomre_q_critical_magnetic", "", r"$Q_\mathrm{crit,B}$", r"$Q_\mathrm{crit,B}$", "",
+       "critical Toomre Q with the field's support", derived=True),
+    _q("band_short", "au", r"$\lambda_\mathrm{min}$", r"$\lambda_\mathrm{min}$", "au",
+       "shortest growing wavelength", derived=True),
+    _q("band_long", "au", r"$\lambda_\mathrm{max}$", r"$\lambda_\mathrm{max}$", "au",
+       "longest growing wavelength", derived=True),
+    _q("midplane_density", "g / cm3", r"$\rho_\mathrm{c}$", r"$\rho_\mathrm{c}$", r"g cm$^{-3}$",
+       "midplane density", derived=True),
+    _q("scale_height", "au", r"$Z_0$", r"$Z_0$", "au", "half-thickness", derived=True),
+    # other ways to state a condition, and the clump catalog
+    _q("column_density", "cm-2", r"$N$", r"$N$", r"cm$^{-2}$", "H2 column density",
+       log=True, auxiliary=True),
+    _q("cosmic_ray_rate", "1 / s", r"$\zeta$", r"$\zeta$", r"s$^{-1}$",
+       "cosmic-ray ionization rate", log=True, auxiliary=True),
+    _q("spacing", "au", r"$s$", r"$s$", "au", "clump spacing", auxiliary=True),
+    _q("clump_mass", "jupiterMass", r"$m$", r"$m$", r"$M_\mathrm{J}$", "clump mass",
+       auxiliary=True),
+    _q("area", "au2", r"$A$", r"$A$", r"au$^2$", "searched area", auxiliary=True),
 )}
 
 #: run-config [priors] keys, in summary order
-PARAMETER_NAMES: tuple[str, ...] = tuple(k for k, q in QUANTITIES.items() if not q.derived)
+PARAMETER_NAMES: tuple[str, ...] = tuple(k for k, q in QUANTITIES.items()
+                                         if not (q.derived or q.auxiliary))
 
 #: derived quantities (ionization, eta_ad and eta_ohm are also derived in some diffusion modes)
 DERIVED_NAMES: tuple[str, ...] = ("field", "eta_ad", "eta_ohm", "eta_total", "ionization", "tau_ni",

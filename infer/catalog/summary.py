@@ -1,7 +1,9 @@
 """The ``infer check --json`` summary of a catalog's regions.
 
-Part of :mod:`infer.catalog.regions`: statistics of spacings (au) and masses (Jupiter
-masses), warnings and exclusions, as plain JSON-ready values.
+Part of :mod:`infer.catalog.regions`: statistics of spacings and masses, warnings and
+exclusions, as plain JSON-ready values. Lengths, masses and areas are given in the units of
+the registry's ``spacing``, ``clump_mass`` and ``area`` (:mod:`infer.quantities`: au,
+Jupiter masses, au2), each key ending in its unit (``spacing_median_au``).
 """
 
 from __future__ import annotations
@@ -12,18 +14,28 @@ from typing import TYPE_CHECKING, Any
 import astropy.units as u
 import numpy as np
 
+from ..quantities import QUANTITIES, QuantityInfo
+
 if TYPE_CHECKING:
     from .regions import Region
 
 __all__ = ["summarize"]
 
-def _stats(values: np.ndarray, suffix: str, stem: str) -> dict[str, float | None]:
+_LENGTH, _MASS, _AREA = QUANTITIES["spacing"], QUANTITIES["clump_mass"], QUANTITIES["area"]
+
+
+def _stats(values: np.ndarray, q: QuantityInfo, stem: str) -> dict[str, float | None]:
+    """Median, 16th and 84th percentiles, min and max of ``values`` (in the unit of ``q``)."""
     v = np.asarray(values, dtype=float)
     keys = ("median", "p16", "p84", "min", "max")
     if v.size == 0:
-        return {f"{stem}_{k}_{suffix}": None for k in keys}
+        return {q.key(f"{stem}_{k}"): None for k in keys}
     nums = (np.median(v), *np.percentile(v, [16, 84]), v.min(), v.max())
-    return {f"{stem}_{k}_{suffix}": float(x) for k, x in zip(keys, nums, strict=True)}
+    return {q.key(f"{stem}_{k}"): float(x) for k, x in zip(keys, nums, strict=True)}
+
+
+def _in(value: u.Quantity, q: QuantityInfo) -> np.ndarray:
+    return value.to_value(q.astropy_unit)
 
 
 def _jsonable(value: Any) -> Any:
@@ -47,39 +59,40 @@ def _jsonable(value: Any) -> Any:
 def _selection(r: Region, sp: np.ndarray, m: np.ndarray) -> dict[str, Any]:
     """Beam, detection limit and area, and how many catalog entries fall below the limits."""
     meta = r.meta
-    out: dict[str, Any] = {"beam": None, "beam_extent_au": None, "resolvable_au": None,
-                           "spacings_below_beam": None, "mass_limit_mjup": None,
-                           "masses_below_limit": None, "area_au2": None}
+    out: dict[str, Any] = {"beam": None, _LENGTH.key("beam_extent"): None,
+                           _LENGTH.key("resolvable"): None, "spacings_below_beam": None,
+                           _MASS.key("mass_limit"): None, "masses_below_limit": None,
+                           _AREA.key(): None}
     if r.spacing_min is not None:
         minor = meta.get("beam_minor", meta["beam_major"])
         out["beam"] = {"major_arcsec": float(meta["beam_major"].to_value(u.arcsec)),
                        "minor_arcsec": float(minor.to_value(u.arcsec)),
                        "pa_deg": float(meta.get("beam_pa", 0 * u.deg).to_value(u.deg))}
-        smin = r.spacing_min.to_value(u.au)
-        out["beam_extent_au"] = r.beam_extent.to_value(u.au).tolist()
-        out["resolvable_au"] = smin.tolist()
+        smin = _in(r.spacing_min, _LENGTH)
+        out[_LENGTH.key("beam_extent")] = _in(r.beam_extent, _LENGTH).tolist()
+        out[_LENGTH.key("resolvable")] = smin.tolist()
         out["spacings_below_beam"] = int(np.sum(sp <= smin))
     if r.mass_limit is not None:
-        lim = float(r.mass_limit.to_value(u.M_jup))
-        out["mass_limit_mjup"] = lim
+        lim = float(_in(r.mass_limit, _MASS))
+        out[_MASS.key("mass_limit")] = lim
         out["masses_below_limit"] = int(np.sum(m <= lim))
     if r.area is not None:
-        out["area_au2"] = float(r.area.to_value(u.au**2))
+        out[_AREA.key()] = float(_in(r.area, _AREA))
     return out
 
 
 def _region_summary(r: Region) -> dict[str, Any]:
-    sp = r.spacings.to_value(u.au)
-    m = r.masses.to_value(u.M_jup)
+    sp = _in(r.spacings, _LENGTH)
+    m = _in(r.masses, _MASS)
     out: dict[str, Any] = {"name": r.name, "n_clumps": len(r), "ids": list(r.ids),
                            "spacing_method": r.spacing_method, "spacing_count": int(sp.size)}
-    out.update(_stats(sp, "au", "spacing"))
-    out["spacings_au"] = sp.tolist()
-    out["spacing_errors_au"] = r.spacing_errors.to_value(u.au).tolist()
+    out.update(_stats(sp, _LENGTH, "spacing"))
+    out[_LENGTH.key("spacings")] = sp.tolist()
+    out[_LENGTH.key("spacing_errors")] = _in(r.spacing_errors, _LENGTH).tolist()
     out["spacing_pairs"] = [[r.ids[i], r.ids[j]] for i, j in r.spacing_pairs]
-    out.update(_stats(m, "mjup", "mass"))
-    out["masses_mjup"] = m.tolist()
-    out["mass_errors_mjup"] = r.mass_errors.to_value(u.M_jup).tolist()
+    out.update(_stats(m, _MASS, "mass"))
+    out[_MASS.key("masses")] = m.tolist()
+    out[_MASS.key("mass_errors")] = _in(r.mass_errors, _MASS).tolist()
     out["mass_from_flux"] = r.mass_from_flux
     out.update(_selection(r, sp, m))
     out["metadata"] = _jsonable(r.meta)
@@ -105,17 +118,19 @@ def summarize(regions: list[Region]) -> dict[str, Any]:
         return out
     common = [w for w in regions[0].warnings if all(w in r.warnings for r in regions)]
     warnings = common + [f"[{r.name}] {w}" for r in regions for w in r.warnings if w not in common]
-    sp = np.concatenate([r.spacings.to_value(u.au) for r in regions])
-    m = np.concatenate([r.masses.to_value(u.M_jup) for r in regions])
+    sp = np.concatenate([_in(r.spacings, _LENGTH) for r in regions])
+    m = np.concatenate([_in(r.masses, _MASS) for r in regions])
     out = {"file": regions[0].source, "n_regions": len(regions),
            "n_clumps": int(sum(len(r) for r in regions)),
            "spacing_method": regions[0].spacing_method, "spacing_count": int(sp.size)}
-    out.update(_stats(sp, "au", "spacing"))
-    out["spacings_au"] = sp.tolist()
-    out["spacing_errors_au"] = [e for p in per for e in p["spacing_errors_au"]]
-    out.update(_stats(m, "mjup", "mass"))
-    out["masses_mjup"] = m.tolist()
-    out["mass_errors_mjup"] = [e for p in per for e in p["mass_errors_mjup"]]
+    out.update(_stats(sp, _LENGTH, "spacing"))
+    out[_LENGTH.key("spacings")] = sp.tolist()
+    errs = _LENGTH.key("spacing_errors")
+    out[errs] = [e for p in per for e in p[errs]]
+    out.update(_stats(m, _MASS, "mass"))
+    out[_MASS.key("masses")] = m.tolist()
+    errs = _MASS.key("mass_errors")
+    out[errs] = [e for p in per for e in p[errs]]
     out["warnings"] = warnings
     out["excluded"] = [f"[{r.name}] {x}" for r in regions for x in r.excluded]
     out["regions"] = per

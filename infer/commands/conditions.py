@@ -8,25 +8,34 @@ from typing import Any
 
 from ..constants import MU_GAS
 from ..errors import InferError
+from ..quantities import QUANTITIES
 
 __all__ = ["add_condition_arguments", "conditions_from_args", "OPTIONS"]
 
+def _eg(name: str, number: str) -> str:
+    """An example value in the quantity's registry unit, e.g. 'e.g. "80 g/cm2"'."""
+    return f'e.g. "{number} {QUANTITIES[name].unit.replace(" / ", "/")}"'
+
+
 #: keyword of infer.physics.predict -> (command-line option, help)
 OPTIONS: dict[str, tuple[str, str]] = {
-    "surface_density": ("--surface-density", 'total gas surface density, e.g. "80 g/cm2"'),
-    "column_density": ("--column-density", 'H2 column density instead, e.g. "2e25 cm-2"'),
-    "temperature": ("--temperature", 'gas temperature, e.g. "40 K"'),
-    "field": ("--field", 'vertical field strength, e.g. "1.5 mG"'),
+    "surface_density": ("--surface-density",
+                        f"total gas surface density, {_eg('surface_density', '80')}"),
+    "column_density": ("--column-density", f"H2 column density instead, {_eg('column_density', '2e25')}"),
+    "temperature": ("--temperature", f"gas temperature, {_eg('temperature', '40')}"),
+    "field": ("--field", f"vertical field strength, {_eg('field', '1.5')}"),
     "mass_to_flux": ("--mass-to-flux", "mass-to-flux ratio in units of the critical value"),
-    "eta_ad": ("--eta-ad", 'ambipolar diffusivity, e.g. "1e18 cm2/s"'),
-    "eta_ohm": ("--eta-ohm", 'Ohmic diffusivity, e.g. "1e16 cm2/s"'),
+    "eta_ad": ("--eta-ad", f"ambipolar diffusivity, {_eg('eta_ad', '1e18')}"),
+    "eta_ohm": ("--eta-ohm", f"Ohmic diffusivity, {_eg('eta_ohm', '1e16')}"),
     "ionization": ("--ionization", "ionization fraction x_e (derives both diffusivities)"),
-    "cosmic_ray_rate": ("--cosmic-ray-rate",
-                        'derive x_e from cosmic-ray ionization equilibrium, e.g. "1e-17 1/s"'),
-    "kappa": ("--kappa", 'epicyclic frequency, e.g. "2e-10 1/s"'),
-    "stellar_mass": ("--stellar-mass", 'stellar mass for a Keplerian disk, e.g. "0.4 solMass"'),
-    "radius": ("--radius", 'orbital radius for a Keplerian disk, e.g. "100 au"'),
-    "external_pressure": ("--external-pressure", 'confining pressure, e.g. "0 dyn/cm2"'),
+    "cosmic_ray_rate": ("--cosmic-ray-rate", f"derive x_e from cosmic-ray ionization equilibrium, "
+                                             f"{_eg('cosmic_ray_rate', '1e-17')}"),
+    "kappa": ("--kappa", f"epicyclic frequency, {_eg('kappa', '2e-10')}"),
+    "stellar_mass": ("--stellar-mass",
+                     f"stellar mass for a Keplerian disk, {_eg('stellar_mass', '0.4')}"),
+    "radius": ("--radius", f"orbital radius for a Keplerian disk, {_eg('radius', '100')}"),
+    "external_pressure": ("--external-pressure",
+                          f"confining pressure, {_eg('external_pressure', '0')}"),
 }
 
 

@@ -51,18 +51,17 @@ MEASURABLE: dict[str, str] = {
 }
 
 
-def _target_label(name: str) -> str:
-    """What a target is called in report tables, with its unit (from the registry)."""
-    if name not in QUANTITIES:
-        return name
-    q = QUANTITIES[name]
-    unit = q.unit.replace(" / ", "/")
-    return f"{q.title} [{unit}]" if unit else q.title
+def _label(name: str) -> str:
+    """A target's name with its unit for tables, from the registry ("field strength [mG]")."""
+    q = QUANTITIES.get(name)
+    return q.text_label if q is not None else name
 
 
-def _short_name(name: str) -> str:
-    """What a target is called in sentences (the registry's title)."""
-    return QUANTITIES[name].title if name in QUANTITIES else name
+def _short(name: str) -> str:
+    """A target's plain-words name for sentences, from the registry ("field strength")."""
+    q = QUANTITIES.get(name)
+    return q.title if q is not None else name
+
 
 _Q = (0.16, 0.84)
 _NO_GAIN = 0.9          # a width ratio above this counts as "essentially unchanged"
@@ -142,7 +141,7 @@ class ForecastResult:
                  f"1 means no gain.", "",
                  "| quantity | width ratio (median) | 16-84% over draws |", "|---|---|---|"]
         for t in self.targets.values():
-            lines.append(f"| {_target_label(t.name)} | {t.ratio_median:.2f} | "
+            lines.append(f"| {_label(t.name)} | {t.ratio_median:.2f} | "
                          f"{t.ratio_p16:.2f} - {t.ratio_p84:.2f} |")
         lines += ["", f"Effective sample size of the weights: median {self.ess_median:.0f} "
                       f"(16-84%: {np.quantile(self.ess, 0.16):.0f} - {np.quantile(self.ess, 0.84):.0f})"
@@ -152,9 +151,9 @@ class ForecastResult:
 
     def to_text(self) -> str:
         """Plain-text rendering for the terminal."""
-        out = [self.title(), f"  {'quantity':<28} {'width ratio':>11}  {'16-84% over draws':>18}"]
+        out = [self.title(), f"  {'quantity':<32} {'width ratio':>11}  {'16-84% over draws':>18}"]
         for t in self.targets.values():
-            out.append(f"  {_target_label(t.name):<28} {t.ratio_median:>11.2f}  "
+            out.append(f"  {_label(t.name):<32} {t.ratio_median:>11.2f}  "
                        f"{t.ratio_p16:>8.2f} - {t.ratio_p84:<8.2f}")
         out.append(f"  effective samples: median {self.ess_median:.0f} of {self.n_samples}")
         out += [f"  warning: {w}" for w in self.warnings]
@@ -170,15 +169,15 @@ class ForecastResult:
         what = {"surface_density": "column-density"}.get(self.measured, self.measured)
         head = f"A {what} measurement with {self.precision:.0%} precision"
         if gain:
-            parts = [f"the {_short_name(n)} to about {self.targets[n].ratio_median:.0%}"
+            parts = [f"the {_short(n)} to about {self.targets[n].ratio_median:.0%}"
                      for n in gain]
             whose = "its current width" if len(gain) == 1 else "their current widths"
             s = f"{head} would be expected to narrow the 68% interval of {_join(parts)} of {whose}"
             rest = [n for n in names if n not in gain]
-            s += (f", and leave the {_join([_short_name(n) for n in rest])} essentially "
+            s += (f", and leave the {_join([_short(n) for n in rest])} essentially "
                   f"unchanged." if rest else ".")
         else:
-            s = (f"{head} would leave the {_join([_short_name(n) for n in names])} "
+            s = (f"{head} would leave the {_join([_short(n) for n in names])} "
                  f"essentially unchanged (all 68% intervals stay above {_NO_GAIN:.0%} of their "
                  f"current width).")
         if self.degenerate:

@@ -19,6 +19,7 @@ import numpy as np
 
 from ..constants import AU, M_JUP, MU_GAS, YR, G
 from ..errors import InferError
+from ..quantities import QUANTITIES
 from . import dispersion
 from .conditions import FRAGMENT_SHAPES, Conditions, kernel_inputs
 from .resolve import resolve_conditions
@@ -153,6 +154,14 @@ def _dimensional(mode: dispersion.FastestMode, p: dispersion.SheetParams,
     )
 
 
+#: the JSON object's entries in order: quantities (keyed with their registry unit, e.g.
+#: "wavelength_au"), the fragment-mass convention and the former name of the critical Q
+_JSON_ORDER = ("wavelength", "growth_time", "fragment_mass", "fragment_mass_convention",
+               "mass_to_flux", "toomre_q", "toomre_q_critical_magnetic", "q_crit_mag", "field",
+               "eta_ad", "eta_ohm", "ionization", "tau_ni", "thermal_wavelength", "thermal_mass",
+               "band_short", "band_long", "midplane_density", "scale_height")
+
+
 @dataclass(frozen=True)
 class Prediction:
     """Predicted observables, Quantity arrays of the broadcast input shape.
@@ -220,32 +229,19 @@ class Prediction:
         one release (0.1.x), so that scripts reading the old key keep working.
         """
 
-        def num(q, unit=None):
-            v = float(np.asarray(q.to_value(unit) if unit is not None else q.value))
+        def num(name: str) -> float | None:
+            v = float(np.asarray(getattr(self, name).to_value(QUANTITIES[name].astropy_unit)))
             return v if np.isfinite(v) else None
 
-        return {
-            "unstable": bool(np.asarray(self.unstable)),
-            "wavelength_au": num(self.wavelength, u.au),
-            "growth_time_yr": num(self.growth_time, u.yr),
-            "fragment_mass_mjup": num(self.fragment_mass, u.M_jup),
-            "fragment_mass_convention": self.fragment_shape,
-            "mass_to_flux": num(self.mass_to_flux),
-            "toomre_q": num(self.toomre_q),
-            "toomre_q_critical_magnetic": num(self.toomre_q_critical_magnetic),
-            "q_crit_mag": num(self.toomre_q_critical_magnetic),     # former name, one release
-            "field_mG": num(self.field, u.mG),
-            "eta_ad_cm2_s": num(self.eta_ad, u.cm**2 / u.s),
-            "eta_ohm_cm2_s": num(self.eta_ohm, u.cm**2 / u.s),
-            "ionization": num(self.ionization),
-            "tau_ni_yr": num(self.tau_ni, u.yr),
-            "thermal_wavelength_au": num(self.thermal_wavelength, u.au),
-            "thermal_mass_mjup": num(self.thermal_mass, u.M_jup),
-            "band_short_au": num(self.band_short, u.au),
-            "band_long_au": num(self.band_long, u.au),
-            "midplane_density_g_cm3": num(self.midplane_density, u.g / u.cm**3),
-            "scale_height_au": num(self.scale_height, u.au),
-        }
+        out: dict[str, Any] = {"unstable": bool(np.asarray(self.unstable))}
+        for name in _JSON_ORDER:
+            if name == "fragment_mass_convention":
+                out[name] = self.fragment_shape
+            elif name == "q_crit_mag":                          # former name, one release
+                out[name] = num("toomre_q_critical_magnetic")
+            else:
+                out[QUANTITIES[name].key()] = num(name)
+        return out
 
     def __len__(self) -> int:
         return int(np.size(self.unstable))
