@@ -19,6 +19,7 @@ A ``normal`` prior on a positive parameter is the normal restricted to x > 0
 from __future__ import annotations
 
 from abc import ABC, abstractmethod
+from collections.abc import Mapping
 from dataclasses import dataclass, field
 from typing import ClassVar
 
@@ -27,7 +28,7 @@ from scipy import special, stats
 
 from ..errors import ConfigError
 
-__all__ = ["Distribution", "Fixed", "Uniform", "LogUniform", "Normal", "TruncNormal",
+__all__ = ["Distribution", "HeldPrior", "Fixed", "Uniform", "LogUniform", "Normal", "TruncNormal",
            "PositiveNormal", "LogNormal", "HalfNormal", "POSITIVE", "SIGNED"]
 
 _LN10 = np.log(10.0)
@@ -380,3 +381,55 @@ POSITIVE: dict[str, type[Distribution]] = {
 #: ``dist`` of a real-line parameter's prior (a power-law index) -> its class
 SIGNED: dict[str, type[Distribution]] = {cls.name: cls for cls in (Uniform, Normal, Fixed)}
 
+
+
+@dataclass(frozen=True)
+class HeldPrior:
+    """One parameter's prior: its name, the config's ``dist`` and ``args``, and the
+    distribution object built from them out of :attr:`TABLE` (set by each subclass).
+
+    Attributes
+    ----------
+    name : str
+    dist : str
+        ``"fixed"`` or a key of the subclass's table.
+    args : dict of float
+        Distribution arguments in the canonical unit.
+    distribution : Distribution
+        Built from ``dist`` and ``args``.
+    """
+
+    TABLE: ClassVar[dict[str, type[Distribution]]] = {}
+
+    name: str
+    dist: str
+    args: Mapping[str, float] = field(default_factory=dict)
+    distribution: Distribution = field(init=False, repr=False, compare=False)
+
+    def __post_init__(self) -> None:
+        object.__setattr__(self, "distribution", self.TABLE[self.dist](**self.args))
+
+    @property
+    def fixed(self) -> bool:
+        return self.dist == "fixed"
+
+    @property
+    def value(self) -> float:
+        """The fixed value (only for fixed priors)."""
+        return float(self.args["value"])
+
+    def support(self) -> tuple[float, float]:
+        """(low, high) of the support in x."""
+        return self.distribution.support()
+
+    def logpdf(self, x) -> np.ndarray:
+        """Normalised log density in x (-inf outside the support)."""
+        return self.distribution.logpdf(x)
+
+    def ppf(self, q) -> np.ndarray:
+        """Quantile function in x (used for starting points and prior widths)."""
+        return self.distribution.ppf(q)
+
+    def sample(self, rng: np.random.Generator, n: int) -> np.ndarray:
+        """n draws in x."""
+        return self.distribution.sample(rng, n)

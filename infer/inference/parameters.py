@@ -17,14 +17,14 @@ at all radii.
 from __future__ import annotations
 
 from collections.abc import Mapping
-from dataclasses import dataclass, field
-from typing import Any
+from dataclasses import dataclass
+from typing import Any, ClassVar
 
 import numpy as np
 
 from ..errors import ConfigError
 from ..physics.profile import power_law
-from .distributions import SIGNED, Distribution
+from .distributions import SIGNED, Distribution, HeldPrior
 
 __all__ = ["LINEAR", "INDEX_OF", "SignedPrior", "parse_signed_prior", "to_values", "to_sampled",
            "log_prior_sampled", "RadialPlan", "radial_plan", "at_radii"]
@@ -46,7 +46,7 @@ _DISTS = {k: cls.keys for k, cls in SIGNED.items() if k != "fixed"}
 
 
 @dataclass(frozen=True)
-class SignedPrior:
+class SignedPrior(HeldPrior):
     """A fixed value, or a uniform or normal prior on the real line (for power-law indices).
 
     Attributes
@@ -58,40 +58,13 @@ class SignedPrior:
         The distribution object (:data:`~infer.inference.distributions.SIGNED`).
     """
 
-    name: str
-    dist: str
-    args: Mapping[str, float] = field(default_factory=dict)
-    distribution: Distribution = field(init=False, repr=False, compare=False)
-
-    def __post_init__(self) -> None:
-        object.__setattr__(self, "distribution", SIGNED[self.dist](**self.args))
-
-    @property
-    def fixed(self) -> bool:
-        return self.dist == "fixed"
-
-    @property
-    def value(self) -> float:
-        return float(self.args["value"])
-
-    def support(self) -> tuple[float, float]:
-        return self.distribution.support()
-
-    def logpdf(self, x) -> np.ndarray:
-        """Normalised log density of x, -inf outside the support."""
-        return self.distribution.logpdf(x)
+    TABLE: ClassVar[dict[str, type[Distribution]]] = SIGNED
 
     def logpdf_sampled(self, x) -> np.ndarray:
         """log density of x (the sampled coordinate itself; constants dropped), -inf outside
         the support and for non-finite x."""
         x = np.asarray(x, dtype=float)
         return np.where(np.isfinite(x), self.distribution.logpdf_unnorm(x), -np.inf)
-
-    def ppf(self, q) -> np.ndarray:
-        return self.distribution.ppf(q)
-
-    def sample(self, rng: np.random.Generator, n: int) -> np.ndarray:
-        return self.distribution.sample(rng, n)
 
     def describe(self) -> str:
         return self.distribution.describe()

@@ -10,8 +10,8 @@ log-density :meth:`Prior.logpdf_ln` therefore includes the Jacobian
 from __future__ import annotations
 
 from collections.abc import Mapping
-from dataclasses import dataclass, field
-from typing import Any
+from dataclasses import dataclass
+from typing import Any, ClassVar
 
 import astropy.units as u
 import numpy as np
@@ -19,7 +19,7 @@ import numpy as np
 from ..errors import ConfigError
 from ..quantities import PARAMETER_NAMES, QUANTITIES
 from ..units import parse_quantity
-from .distributions import POSITIVE, Distribution
+from .distributions import POSITIVE, Distribution, HeldPrior
 
 __all__ = ["ParamInfo", "PARAMETERS", "Prior", "parse_prior", "DISTRIBUTIONS"]
 
@@ -45,7 +45,7 @@ _SCATTERS = ("spacing_scatter", "mass_scatter")
 
 
 @dataclass(frozen=True)
-class Prior:
+class Prior(HeldPrior):
     """A fixed value or a distribution for one positive parameter, in its canonical unit.
 
     Attributes
@@ -61,42 +61,11 @@ class Prior:
         from ``dist`` and ``args``.
     """
 
-    name: str
-    dist: str
-    args: Mapping[str, float] = field(default_factory=dict)
-    distribution: Distribution = field(init=False, repr=False, compare=False)
-
-    def __post_init__(self) -> None:
-        object.__setattr__(self, "distribution", POSITIVE[self.dist](**self.args))
-
-    @property
-    def fixed(self) -> bool:
-        return self.dist == "fixed"
-
-    @property
-    def value(self) -> float:
-        """The fixed value (only for fixed priors)."""
-        return float(self.args["value"])
-
-    def support(self) -> tuple[float, float]:
-        """(low, high) of the support in x."""
-        return self.distribution.support()
-
-    def logpdf(self, x) -> np.ndarray:
-        """Normalised log density in x (-inf outside the support)."""
-        return self.distribution.logpdf(x)
+    TABLE: ClassVar[dict[str, type[Distribution]]] = POSITIVE
 
     def logpdf_ln(self, lnx) -> np.ndarray:
         """log density of u = ln x (unnormalised constants dropped), -inf outside support."""
         return self.distribution.logpdf_ln(lnx)
-
-    def ppf(self, q) -> np.ndarray:
-        """Quantile function in x (used for starting points and prior widths)."""
-        return self.distribution.ppf(q)
-
-    def sample(self, rng: np.random.Generator, n: int) -> np.ndarray:
-        """n draws in x."""
-        return self.distribution.sample(rng, n)
 
     def describe(self) -> str:
         """Human-readable description with units, e.g. ``loguniform(0.1, 10)``."""

@@ -13,9 +13,15 @@ from ...errors import InferError
 from .regions import one_line
 from .tasks import FitTask, failed_row, fit_task
 
-__all__ = ["cluster_client", "run_tasks", "core_count"]
+__all__ = ["cluster_client", "run_tasks", "core_count", "LOCAL_WORKER_CONFIG"]
 
 _THREAD_ENV = {"OMP_NUM_THREADS": "1", "OPENBLAS_NUM_THREADS": "1", "MKL_NUM_THREADS": "1"}
+
+#: Dask settings for the local cluster's workers. The worker's statistical profiler samples every
+#: thread's stack every 10 ms; a fit is a long run of short Python calls, and that sampling
+#: slowed each fit on a worker by 10-40% (measured with benchmarks/survey.py). A survey's
+#: per-task timings are in the task stream, so the profiler adds nothing the user needs.
+LOCAL_WORKER_CONFIG = {"distributed.worker.profile.enabled": False}
 
 
 def core_count() -> int:
@@ -66,8 +72,11 @@ def cluster_client(scheduler: str | None, n_workers: int, say: Callable[[str], N
         finally:
             client.close()
         return
-    cluster = LocalCluster(n_workers=n_workers, threads_per_worker=1, processes=True,
-                           env=dict(_THREAD_ENV), silence_logs=logging.ERROR)
+    import dask
+
+    with dask.config.set(LOCAL_WORKER_CONFIG):  # the workers take the config they start with
+        cluster = LocalCluster(n_workers=n_workers, threads_per_worker=1, processes=True,
+                               env=dict(_THREAD_ENV), silence_logs=logging.ERROR)
     client = Client(cluster, set_as_default=False)
     link = cluster.dashboard_link
     import importlib.util
