@@ -382,7 +382,6 @@ POSITIVE: dict[str, type[Distribution]] = {
 SIGNED: dict[str, type[Distribution]] = {cls.name: cls for cls in (Uniform, Normal, Fixed)}
 
 
-
 @dataclass(frozen=True)
 class HeldPrior:
     """One parameter's prior: its name, the config's ``dist`` and ``args``, and the
